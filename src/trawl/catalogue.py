@@ -1,0 +1,445 @@
+"""Load and validate a catalogue of search destinations (JSONL, CSV or Parquet).
+
+Every item has an ``id``, a destination ``type`` and a ``title``; ``text``, ``deeplink``,
+``related`` and ``tags`` are optional and any other field is kept as metadata, so a
+text template can use it. Validation errors name file, line (or row) and field.
+"""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import io
+import json
+import math
+import string
+from collections import Counter
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from types import MappingProxyType
+from typing import Any
+
+from .errors import CatalogueError, UsageError
+from .files import decode_utf8
+
+REQUIRED = ("id", "type", "title")
+KNOWN = ("id", "type", "title", "text", "deeplink", "related", "tags")
+FORMATS = {".jsonl": "jsonl", ".ndjson": "jsonl", ".csv": "csv", ".parquet": "parquet",
+           ".pq": "parquet"}
+DEFAULT_TEMPLATE = "{title}\n{text}"
+LIST_SEPARATOR = "|"  # CSV cells for related/tags: "a|b|c" or a JSON array
+
+
+@dataclass(frozen=True)
+class Item:
+    """One search destination: an article, FAQ entry, screen, form, ..."""
+
+    id: str
+    type: str
+    title: str
+    text: str = ""
+    deeplink: str = ""
+    related: tuple[str, ...] = ()
+    tags: tuple[str, ...] = ()
+    meta: Mapping[str, Any] = field(default_factory=lambda: MappingProxyType({}),
+                                    compare=False, hash=False)
+    line: int = field(default=0, compare=False)  # source line (JSONL/CSV) or row (Parquet)
+
+    def fields(self) -> dict[str, Any]:
+        """All fields a template may use; list fields are joined with ", "."""
+        out: dict[str, Any] = dict(self.meta)
+        out.update(id=self.id, type=self.type, title=self.title, text=self.text,
+                   deeplink=self.deeplink, related=", ".join(self.related),
+                   tags=", ".join(self.tags))
+        return out
+
+    def canonical(self) -> dict[str, Any]:
+        """Content as plain JSON values, the basis of the fingerprint."""
+        return {"id": self.id, "type": self.type, "title": self.title, "text": self.text,
+                "deeplink": self.deeplink, "related": list(self.related),
+                "tags": list(self.tags), "meta": _jsonable(dict(self.meta))}
+
+
+class _Missing(dict):
+    def __missing__(self, key: str) -> str:
+        return ""
+
+
+@dataclass(frozen=True)
+class TextTemplate:
+    """How an item becomes the text it is embedded (and BM25-indexed) with.
+
+    A ``str.format`` pattern over item fields; unknown fields render empty so one
+    template serves items of every type. Surrounding blank lines are stripped.
+    """
+
+    pattern: str = DEFAULT_TEMPLATE
+
+    def __post_init__(self) -> None:
+        try:
+            names = [f for _, f, _, _ in string.Formatter().parse(self.pattern) if f is not None]
+        except ValueError as exc:
+            raise UsageError(f"text template {self.pattern!r} is not valid: {exc}") from None
+        for name in names:
+            if not name.isidentifier():
+                raise UsageError(
+                    f"text template {self.pattern!r}: field {{{name}}} must be a plain field "
+                    "name such as {title}, {text}, {type} or a metadata field")
+        if not names:
+            raise UsageError(f"text template {self.pattern!r} uses no fields; "
+                             "use e.g. '{title}\\n{text}'")
+
+    def render(self, item: Item) -> str:
+        text = self.pattern.format_map(_Missing(item.fields()))
+        return "\n".join(line.strip() for line in text.strip().splitlines() if line.strip())
+
+
+@dataclass(frozen=True)
+class Catalogue:
+    """A validated, ordered set of items with a content fingerprint."""
+
+    path: str
+    items: tuple[Item, ...]
+    template: TextTemplate = TextTemplate()
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "_by_id", {it.id: it for it in self.items})
+
+    @property
+    def by_id(self) -> Mapping[str, Item]:
+        return self._by_id  # type: ignore[attr-defined]
+
+    def __len__(self) -> int:
+        return len(self.items)
+
+    @property
+    def ids(self) -> list[str]:
+        return [it.id for it in self.items]
+
+    def texts(self) -> list[str]:
+        """Item texts through the template, in item order."""
+        return [self.template.render(it) for it in self.items]
+
+    def type_counts(self) -> dict[str, int]:
+        return dict(sorted(Counter(it.type for it in self.items).items()))
+
+    @property
+    def fingerprint(self) -> str:
+        """Content hash, independent of file format and line order (items sorted by id).
+
+        The template is not part of it: the same content embedded differently is the
+        same catalogue; indexes record their template separately.
+        """
+        h = hashlib.sha256()
+        for it in sorted(self.items, key=lambda i: i.id):
+            h.update(json.dumps(it.canonical(), sort_keys=True, ensure_ascii=False).encode())
+            h.update(b"\n")
+        return h.hexdigest()[:16]
+
+    def with_template(self, pattern: str) -> Catalogue:
+        return Catalogue(self.path, self.items, TextTemplate(pattern))
+
+
+def load_catalogue(path: str | Path, template: str | None = None) -> Catalogue:
+    """Read and validate a catalogue; the format follows the file extension."""
+    path = Path(path)
+    fmt = FORMATS.get(path.suffix.lower())
+    if fmt is None:
+        raise CatalogueError(path, f"unknown catalogue format {path.suffix or '(none)'!r}; "
+                             "use .jsonl, .csv or .parquet")
+    if not path.exists():
+        raise CatalogueError(path, "catalogue file not found")
+    if path.is_dir():
+        raise CatalogueError(path, "catalogue is a folder, expected a file")
+    if fmt == "parquet":
+        records = _parquet_records(path)
+    else:
+        data = path.read_bytes()
+        if not data.strip():
+            raise CatalogueError(path, "catalogue is empty; expected one item per "
+                                 + ("line" if fmt == "jsonl" else "row after the header"))
+        text = decode_utf8(path, data)
+        records = _jsonl_records(path, text) if fmt == "jsonl" else _csv_records(path, text)
+    items = _validate(path, records, fmt)
+    if not items:
+        raise CatalogueError(path, "catalogue has no items")
+    return Catalogue(str(path), tuple(items),
+                     TextTemplate(template) if template is not None else TextTemplate())
+
+
+# --- readers: each yields (line_or_row, dict) -------------------------------------------
+
+def _jsonl_records(path: Path, text: str) -> Iterable[tuple[int, dict]]:
+    for n, line in enumerate(text.split("\n"), start=1):
+        if not line.strip():
+            continue
+        try:
+            obj = json.loads(line)
+        except json.JSONDecodeError as exc:
+            raise CatalogueError(path, f"malformed JSON: {exc.msg} (column {exc.colno})",
+                                 line=n) from None
+        except RecursionError:
+            raise CatalogueError(path, "malformed JSON: nested too deeply", line=n) from None
+        if not isinstance(obj, dict):
+            raise CatalogueError(path, f"expected a JSON object, got {_kind(obj)}", line=n)
+        yield n, obj
+
+
+def _csv_records(path: Path, text: str) -> Iterable[tuple[int, dict]]:
+    if "\x00" in text:
+        line = text[: text.index("\x00")].count("\n") + 1
+        raise CatalogueError(path, "NUL byte in CSV data; the file is binary or corrupt",
+                             line=line)
+    reader = csv.reader(io.StringIO(text, newline=""), strict=True)
+    try:
+        header = next(reader)
+    except StopIteration:
+        raise CatalogueError(path, "catalogue is empty") from None
+    except csv.Error as exc:
+        raise CatalogueError(path, f"malformed CSV: {exc}", line=1) from None
+    header = [h.strip() for h in header]
+    for col in REQUIRED:
+        if col not in header:
+            raise CatalogueError(path, f"missing column {col!r}; the header must name "
+                                 f"{', '.join(REQUIRED)}", line=1, field="header")
+    dupes = [h for h, c in Counter(header).items() if c > 1]
+    if dupes:
+        raise CatalogueError(path, f"column {dupes[0]!r} appears twice", line=1, field="header")
+    start = 2
+    while True:
+        try:
+            row = next(reader)
+        except StopIteration:
+            return
+        except csv.Error as exc:
+            raise CatalogueError(path, f"malformed CSV: {exc}", line=reader.line_num) from None
+        line, start = start, reader.line_num + 1
+        if not any(cell.strip() for cell in row):
+            continue
+        if len(row) != len(header):
+            raise CatalogueError(path, f"expected {len(header)} cells as in the header, "
+                                 f"got {len(row)}", line=line)
+        rec = {h: v for h, v in zip(header, row) if v != ""}
+        for key in ("related", "tags"):
+            if key in rec:
+                rec[key] = _split_cell(path, line, key, rec[key])
+        yield line, rec
+
+
+def _split_cell(path: Path, line: int, key: str, cell: str) -> list[str] | Any:
+    cell = cell.strip()
+    if cell.startswith("["):
+        try:
+            return json.loads(cell)
+        except json.JSONDecodeError as exc:
+            raise CatalogueError(path, f"malformed JSON list: {exc.msg}", line=line,
+                                 field=key) from None
+    return [p.strip() for p in cell.split(LIST_SEPARATOR) if p.strip()]
+
+
+def _parquet_records(path: Path) -> Iterable[tuple[int, dict]]:
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    try:
+        table = pq.read_table(path)
+    except (pa.ArrowException, OSError) as exc:
+        raise CatalogueError(path, f"cannot read Parquet file: {exc}") from None
+    if table.num_rows == 0:
+        raise CatalogueError(path, "catalogue is empty; the Parquet file has no rows")
+    for col in REQUIRED:
+        if col not in table.column_names:
+            raise CatalogueError(path, f"missing column {col!r}; columns must include "
+                                 f"{', '.join(REQUIRED)}", field="header")
+    for n, rec in enumerate(table.to_pylist(), start=1):
+        yield n, {k: v for k, v in rec.items() if v is not None
+                  and not (isinstance(v, float) and math.isnan(v))}
+
+
+# --- validation ---------------------------------------------------------------------------
+
+def _validate(path: Path, records: Iterable[tuple[int, dict]], fmt: str) -> list[Item]:
+    where = "row" if fmt == "parquet" else "line"
+    items: list[Item] = []
+    first_seen: dict[str, int] = {}
+    pending_related: list[tuple[int, str]] = []
+    for n, rec in records:
+        item_id = _id_value(path, n, rec)
+        if item_id in first_seen:
+            raise CatalogueError(path, f"duplicate id {item_id!r} (first on {where} "
+                                 f"{first_seen[item_id]}); ids must be unique", line=n, field="id")
+        first_seen[item_id] = n
+        typ = _required_str(path, n, rec, "type")
+        title = _required_str(path, n, rec, "title", allow_empty=True)
+        text = _optional_str(path, n, rec, "text")
+        deeplink = _optional_str(path, n, rec, "deeplink")
+        related = _str_list(path, n, rec, "related")
+        tags = _str_list(path, n, rec, "tags")
+        meta = {k: v for k, v in rec.items() if k not in KNOWN}
+        for rid in related:
+            pending_related.append((n, rid))
+        items.append(Item(item_id, typ, title, text, deeplink, related, tags,
+                          MappingProxyType(meta), n))
+    for n, rid in pending_related:
+        if rid not in first_seen:
+            raise CatalogueError(path, f"unknown id {rid!r}; related ids must name items in "
+                                 "this catalogue", line=n, field="related")
+    return items
+
+
+def _id_value(path: Path, n: int, rec: dict) -> str:
+    if "id" not in rec:
+        raise CatalogueError(path, "missing; every item needs a unique, non-empty id",
+                             line=n, field="id")
+    v = rec["id"]
+    if isinstance(v, bool) or not isinstance(v, (str, int)):
+        raise CatalogueError(path, f"must be a string, got {_kind(v)}", line=n, field="id")
+    v = str(v)
+    if not v.strip():
+        raise CatalogueError(path, "empty; every item needs a unique, non-empty id",
+                             line=n, field="id")
+    if any(c.isspace() for c in v):
+        raise CatalogueError(path, f"{v!r} contains white space, which TREC qrels and run "
+                             "files cannot hold; use e.g. '-' or '_'", line=n, field="id")
+    return v
+
+
+def _required_str(path: Path, n: int, rec: dict, key: str, allow_empty: bool = False) -> str:
+    """A field that must be present; an empty title is tolerated (real exports have them,
+    and `check` warns), an empty type is not (per-type breakdowns need it)."""
+    if key not in rec:
+        raise CatalogueError(path, f"missing; every item needs a {key}", line=n, field=key)
+    v = rec[key]
+    if not isinstance(v, str):
+        raise CatalogueError(path, f"must be a string, got {_kind(v)}", line=n, field=key)
+    if not v.strip() and not allow_empty:
+        raise CatalogueError(path, f"empty; every item needs a {key}", line=n, field=key)
+    return v.strip()
+
+
+def _optional_str(path: Path, n: int, rec: dict, key: str) -> str:
+    v = rec.get(key)
+    if v is None:
+        return ""
+    if not isinstance(v, str):
+        raise CatalogueError(path, f"must be a string, got {_kind(v)}", line=n, field=key)
+    return v.strip()
+
+
+def _str_list(path: Path, n: int, rec: dict, key: str) -> tuple[str, ...]:
+    v = rec.get(key)
+    if v is None:
+        return ()
+    if isinstance(v, str):
+        v = [v] if v.strip() else []
+    if hasattr(v, "tolist") and not isinstance(v, list):  # numpy arrays from Parquet
+        v = v.tolist()
+    if not isinstance(v, (list, tuple)):
+        raise CatalogueError(path, f"must be a list of strings, got {_kind(v)}", line=n,
+                             field=key)
+    out = []
+    for x in v:
+        if not isinstance(x, (str, int)) or isinstance(x, bool):
+            raise CatalogueError(path, f"must be a list of strings, found {_kind(x)}",
+                                 line=n, field=key)
+        x = str(x).strip()
+        if x and x not in out:
+            out.append(x)
+    return tuple(out)
+
+
+def _kind(v: Any) -> str:
+    if v is None:
+        return "null"
+    if isinstance(v, bool):
+        return "a boolean"
+    if isinstance(v, (int, float)):
+        return f"number {v!r}"
+    if isinstance(v, (list, tuple)):
+        return "a list"
+    if isinstance(v, dict):
+        return "an object"
+    return type(v).__name__
+
+
+def _jsonable(v: Any) -> Any:
+    if isinstance(v, Mapping):
+        return {str(k): _jsonable(x) for k, x in v.items()}
+    if isinstance(v, (list, tuple)):
+        return [_jsonable(x) for x in v]
+    if hasattr(v, "tolist"):
+        return _jsonable(v.tolist())
+    if isinstance(v, (str, int, float, bool)) or v is None:
+        return v
+    return str(v)
+
+
+# --- the `check` report ---------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class CheckReport:
+    """What `trawl check` tells: counts per type, text lengths and warnings."""
+
+    path: str
+    items: int
+    fingerprint: str
+    types: Mapping[str, int]
+    length_unit: str
+    length_percentiles: Mapping[str, float]
+    over_window: int
+    warnings: tuple[str, ...]
+
+    def as_dict(self) -> dict[str, Any]:
+        return {"path": self.path, "items": self.items, "fingerprint": self.fingerprint,
+                "types": dict(self.types), "length_unit": self.length_unit,
+                "length_percentiles": dict(self.length_percentiles),
+                "over_window": self.over_window, "warnings": list(self.warnings)}
+
+
+NEAR_EMPTY_WORDS = 3  # common practice, no source: a title alone of <=3 words gives little to match
+
+
+def check_catalogue(cat: Catalogue, unit: str = "tokens") -> CheckReport:
+    """Summarise a catalogue and flag items that will search badly."""
+    import numpy as np
+
+    texts = cat.texts()
+    if unit == "tokens":
+        from .bundled import MAX_TOKENS, tokenizer
+
+        lengths = [len(e.ids) - 2 for e in tokenizer().encode_batch(texts)]  # minus [CLS]/[SEP]
+        over = sum(1 for n in lengths if n + 2 > MAX_TOKENS)
+    elif unit == "words":
+        lengths = [len(t.split()) for t in texts]
+        over = 0
+    else:
+        raise UsageError(f"length unit {unit!r} is not one of: tokens, words")
+    arr = np.asarray(lengths, dtype=float)
+    pct = {f"p{p}": float(np.percentile(arr, p)) for p in (5, 25, 50, 75, 95)}
+    pct["max"] = float(arr.max())
+    warnings: list[str] = []
+    for it in cat.items:
+        words = len(f"{it.title} {it.text}".split())
+        if words <= NEAR_EMPTY_WORDS:
+            warnings.append(f"{cat.path}:{it.line}: near-empty item {it.id!r} "
+                            f"({words} words); it will rarely be found")
+        elif not it.title:
+            warnings.append(f"{cat.path}:{it.line}: item {it.id!r} has an empty title")
+    seen: dict[str, Item] = {}
+    for it in cat.items:
+        if not it.title:
+            continue
+        key = " ".join(it.title.lower().split())
+        if key in seen:
+            first = seen[key]
+            warnings.append(f"{cat.path}:{it.line}: title of {it.id!r} duplicates "
+                            f"{first.id!r} (line {first.line}): {it.title!r}")
+        else:
+            seen[key] = it
+    if over:
+        warnings.append(f"{over} item(s) exceed the bundled encoder's window of "
+                        f"{MAX_TOKENS} tokens; their tails are not embedded")
+    return CheckReport(cat.path, len(cat), cat.fingerprint, cat.type_counts(), unit, pct,
+                       over, tuple(warnings))
+

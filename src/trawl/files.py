@@ -1,0 +1,75 @@
+"""Atomic file output and tolerant text input shared by every reader and writer.
+
+Outputs go to a temporary file in the same folder and are renamed into place, so an
+interrupted command never leaves a half-written artefact.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import tempfile
+from collections.abc import Iterator
+from pathlib import Path
+from typing import IO
+
+from .errors import InputError
+
+
+@contextlib.contextmanager
+def atomic_write(path: str | Path, mode: str = "w", encoding: str | None = "utf-8",
+                 newline: str | None = "\n") -> Iterator[IO]:
+    """Open a temp file beside ``path``; rename it over ``path`` only if the block succeeds."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    binary = "b" in mode
+    try:
+        with os.fdopen(fd, mode, encoding=None if binary else encoding,
+                       newline=None if binary else newline) as fh:
+            yield fh
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(FileNotFoundError):
+            os.unlink(tmp)
+        raise
+
+
+def write_text_atomic(path: str | Path, text: str) -> None:
+    with atomic_write(path) as fh:
+        fh.write(text)
+
+
+def read_text(path: str | Path, what: str) -> str:
+    """Read a UTF-8 text file (BOM and CRLF tolerated) or raise a located InputError.
+
+    ``what`` names the kind of file for the messages, e.g. "queries file".
+    """
+    path = Path(path)
+    try:
+        data = path.read_bytes()
+    except FileNotFoundError:
+        raise InputError(path, f"{what} not found") from None
+    except IsADirectoryError:
+        raise InputError(path, f"{what} is a folder, expected a file") from None
+    except OSError as exc:
+        raise InputError(path, f"cannot read {what}: {exc.strerror}") from None
+    return decode_utf8(path, data)
+
+
+def decode_utf8(path: str | Path, data: bytes) -> str:
+    """Decode bytes as UTF-8 (optional BOM), normalising line ends to ``\\n``."""
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        col = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
+        raise InputError(
+            path,
+            f"not valid UTF-8 (byte 0x{data[exc.start]:02x} at column {col}); "
+            "re-save the file with UTF-8 encoding",
+            line=line,
+        ) from None
+    return text.replace("\r\n", "\n").replace("\r", "\n")

@@ -1,0 +1,81 @@
+"""Runs in TREC format: ``qid Q0 item_id rank score tag``.
+
+Ranking order everywhere in trawl is the one trec_eval uses: score descending, ties
+broken by item id descending. Runs we write list items in that order, so a file's
+rank column and its scores never disagree.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+from pathlib import Path
+
+from .errors import InputError
+from .files import atomic_write, read_text
+
+
+@dataclass(frozen=True)
+class Run:
+    """Ranked results per query: ``results[qid]`` is a tuple of (item_id, score), best first."""
+
+    name: str
+    results: Mapping[str, tuple[tuple[str, float], ...]]
+
+    def __len__(self) -> int:
+        return len(self.results)
+
+
+def rank_order(pairs: Iterable[tuple[str, float]]) -> tuple[tuple[str, float], ...]:
+    """Sort (item, score) pairs as trec_eval does: score desc, then item id desc."""
+    return tuple(sorted(pairs, key=lambda p: (p[1], p[0]), reverse=True))
+
+
+def make_run(name: str, results: Mapping[str, Iterable[tuple[str, float]]]) -> Run:
+    return Run(name, {q: rank_order(pairs) for q, pairs in results.items()})
+
+
+def read_run(path: str | Path, name: str | None = None) -> Run:
+    """Read a TREC run; duplicate (qid, item) entries are errors."""
+    text = read_text(path, "run file")
+    per_q: dict[str, dict[str, float]] = {}
+    first: dict[tuple[str, str], int] = {}
+    tag = None
+    for n, line in enumerate(text.split("\n"), start=1):
+        parts = line.split()
+        if not parts:
+            continue
+        if len(parts) != 6:
+            raise InputError(path, f"expected 6 fields 'qid Q0 item_id rank score tag', "
+                             f"got {len(parts)}", line=n)
+        qid, _, item, rank_s, score_s, t = parts
+        try:
+            score = float(score_s)
+        except ValueError:
+            raise InputError(path, f"score {score_s!r} is not a number", line=n,
+                             field="score") from None
+        if math.isnan(score):
+            raise InputError(path, "score is NaN", line=n, field="score")
+        try:
+            int(rank_s)
+        except ValueError:
+            raise InputError(path, f"rank {rank_s!r} is not a whole number", line=n,
+                             field="rank") from None
+        key = (qid, item)
+        if key in first:
+            raise InputError(path, f"duplicate entry for query {qid!r}, item {item!r} "
+                             f"(first on line {first[key]})", line=n)
+        first[key] = n
+        per_q.setdefault(qid, {})[item] = score
+        tag = tag or t
+    if not per_q:
+        raise InputError(path, "run is empty; expected lines of 'qid Q0 item_id rank score tag'")
+    return make_run(name or tag or Path(path).stem, {q: d.items() for q, d in per_q.items()})
+
+
+def write_run(path: str | Path, run: Run) -> None:
+    with atomic_write(path) as fh:
+        for qid, pairs in run.results.items():
+            for rank, (item, score) in enumerate(pairs, start=1):
+                fh.write(f"{qid} Q0 {item} {rank} {float(score)!r} {run.name}\n")
