@@ -1,0 +1,546 @@
+"""report.html: one self-contained file rendered from a results bundle.
+
+No scripts, fonts, images or links that leave the file: a Content-Security-Policy meta
+tag forbids any request, so the page opens offline and cannot phone home even if a
+catalogue string slipped through escaping (it cannot: see ``markup``). Every chart is
+inline SVG followed by a table holding the same figures, for screen readers, print and
+copy-paste. The bundle format is described in ``trawl.report``.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+from . import format as fmt
+from .charts import (Bar, BarGroup, Look, Point, agreement_scatter, grouped_bars, look,
+                     quality_latency)
+from .markup import Markup, el, join
+
+CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; form-action 'none'"
+WORST_PER_TYPE = 3
+
+
+def render_html(bundle: Mapping[str, Any]) -> str:
+    """The whole report as one HTML string (deterministic: same bundle, same bytes)."""
+    looks = {s["name"]: look(i) for i, s in enumerate(bundle["systems"])}
+    evaluations = bundle["evaluations"]
+    sections = [_setup(bundle, looks)]
+    for i, ev in enumerate(evaluations):
+        sections.append(_evaluation(bundle, ev, i + 2, looks))
+    if bundle.get("agreement"):
+        sections.append(_agreement(bundle["agreement"], len(evaluations) + 2, looks))
+    sections.append(_reading_guide(bundle, len(sections) + 1))
+    title = bundle.get("title") or "Search evaluation"
+    page = el("html", {"lang": "en"},
+              el("head", None,
+                 el("meta", {"charset": "utf-8"}),
+                 el("meta", {"http_equiv": "Content-Security-Policy", "content": CSP}),
+                 el("meta", {"name": "viewport", "content": "width=device-width, initial-scale=1"}),
+                 el("meta", {"name": "generator", "content": f"trawl {bundle.get('trawl_version', '')}"}),
+                 el("title", None, f"{title} · trawl report"),
+                 el("style", None, Markup(STYLE))),
+              el("body", None,
+                 _masthead(bundle, title),
+                 _contents(bundle),
+                 el("main", None, *sections),
+                 el("footer", None, "Written by trawl ", bundle.get("trawl_version", ""),
+                    ". This file makes no network requests and needs no other files.")))
+    return "<!doctype html>\n" + page + "\n"
+
+
+# --- page furniture -------------------------------------------------------------------------
+
+def _slug(text: str) -> str:
+    return re.sub(r"[^a-z0-9]+", "-", text.lower()).strip("-") or "x"
+
+
+def _masthead(bundle: Mapping[str, Any], title: str) -> Markup:
+    cat = bundle["setup"]["catalogue"]
+    silver = [ev for ev in bundle["evaluations"] if ev.get("silver")]
+    notice = None
+    if silver:
+        names = ", ".join(ev["label"] for ev in silver)
+        notice = el("p", {"class_": "notice", "role": "note"},
+                    el("strong", None, "Silver judgments are estimates. "),
+                    f"The figures under {names} come from machine-made judgments, not people. ",
+                    _silver_trust(bundle))
+    return el("header", {"class_": "masthead"},
+              el("p", {"class_": "kicker"}, "trawl · search evaluation"),
+              el("h1", None, title),
+              el("p", {"class_": "lede"},
+                 f"{cat['items']} items of {len(cat['types'])} destination types, "
+                 f"{len(bundle['systems'])} systems, "
+                 f"{len(bundle['evaluations'])} judgment set"
+                 f"{'s' if len(bundle['evaluations']) != 1 else ''}. Catalogue fingerprint ",
+                 el("code", None, cat["fingerprint"]), "."),
+              notice)
+
+
+def _silver_trust(bundle: Mapping[str, Any]) -> Markup | str:
+    ag = bundle.get("agreement")
+    if not ag:
+        return ("How well they rank systems the way people would is not measured here; "
+                "review a sample (trawl review) or add human judgments to find out.")
+    tau = ag["tau"]
+    return join(f"Measured against {ag['b_label']}: the two sets rank the systems with "
+                f"Kendall's tau {fmt.num(tau['value'], 2)} (interval "
+                f"{fmt.interval(tau['low'], tau['high'], 2)}) over {len(ag['systems'])} systems; "
+                "see ", el("a", {"href": "#agreement"}, "Agreement"), ".")
+
+
+def _contents(bundle: Mapping[str, Any]) -> Markup:
+    items = [el("li", None, el("a", {"href": "#setup"}, "Setup"))]
+    for ev in bundle["evaluations"]:
+        items.append(el("li", None, el("a", {"href": f"#eval-{_slug(ev['name'])}"},
+                                       "Results: ", ev["label"])))
+    if bundle.get("agreement"):
+        items.append(el("li", None, el("a", {"href": "#agreement"}, "Agreement")))
+    items.append(el("li", None, el("a", {"href": "#reading"}, "How to read")))
+    return el("nav", {"aria_label": "Contents"}, el("ol", None, *items))
+
+
+def _section(anchor: str, number: int, title: str, *body) -> Markup:
+    return el("section", {"id": anchor, "aria_labelledby": f"{anchor}-h"},
+              el("h2", {"id": f"{anchor}-h"}, el("span", {"class_": "secno"}, f"{number}"),
+                 title),
+              *body)
+
+
+def _table(header: Sequence[Any], rows: Sequence[Sequence[Any]], caption: str | None = None,
+           numeric: Sequence[bool] | None = None, cls: str = "data") -> Markup:
+    numeric = numeric or [i > 0 for i in range(len(header))]
+    head = el("thead", None, el("tr", None, *(
+        el("th", {"scope": "col", "class_": "num" if n else None}, h)
+        for h, n in zip(header, numeric))))
+    body_rows = []
+    for r in rows:
+        cells = []
+        for i, c in enumerate(r):
+            if i == 0:
+                cells.append(el("th", {"scope": "row"}, c))
+            elif isinstance(c, DataCell):
+                cells.append(c)
+            else:
+                cells.append(el("td", {"class_": "num" if numeric[i] else None}, c))
+        body_rows.append(el("tr", None, *cells))
+    return el("div", {"class_": "table-wrap"},
+              el("table", {"class_": cls},
+                 el("caption", None, caption) if caption else None,
+                 head, el("tbody", None, *body_rows)))
+
+
+class DataCell(Markup):
+    """A ready ``<td>`` that ``_table`` places as is."""
+
+
+def _cell(text: str, key: str | None = None, cls: str = "num") -> DataCell:
+    """A data cell; ``key`` (evaluation|system|metric|type) ties it to the JSON tables."""
+    return DataCell(el("td", {"class_": cls, "data_cell": key}, text))
+
+
+def _swatch(name: str, looks: Mapping[str, Look]) -> Markup:
+    lk = looks.get(name)
+    if lk is None:
+        return join(name)
+    return join(el("span", {"class_": f"swatch m-{lk.marker}", "style": f"--c:{lk.colour}",
+                            "aria_hidden": "true"}), name)
+
+
+def _figure(chart: Markup, caption: str, table: Markup) -> Markup:
+    return el("figure", None, el("div", {"class_": "chart-wrap"}, chart),
+              el("figcaption", None, caption), table)
+
+
+# --- sections -------------------------------------------------------------------------------
+
+def _setup(bundle: Mapping[str, Any], looks: Mapping[str, Look]) -> Markup:
+    setup = bundle["setup"]
+    cat = setup["catalogue"]
+    total = max(cat["items"], 1)
+    types = _table(["destination type", "items", "share"],
+                   [[t, n, fmt.share(n / total)] for t, n in cat["types"].items()],
+                   caption="Catalogue items per destination type")
+    judg_rows = []
+    for ev in bundle["evaluations"]:
+        kind = el("span", {"class_": "badge silver" if ev.get("silver") else "badge human"},
+                  "silver · estimates" if ev.get("silver") else "human")
+        judg_rows.append([ev["label"], kind, ev["queries"], ev["judgments"],
+                          el("span", {"class_": "how"}, ev.get("how", ""))])
+    judgments = _table(["judgment set", "kind", "queries", "judgments", "how it was made"],
+                       judg_rows, caption="Judgment sets",
+                       numeric=[False, False, True, True, False])
+    sys_rows = []
+    for s in bundle["systems"]:
+        sys_rows.append([_swatch(s["name"], looks), el("code", None, s.get("spec", "")),
+                         s.get("kind", ""), el("code", None, (s.get("fingerprint") or "")[:12]),
+                         s.get("dimensions") or fmt.MISSING, fmt.size(s.get("index_bytes")),
+                         fmt.size(s.get("bytes_per_item"))])
+    systems = _table(["system", "spec", "kind", "fingerprint", "dimensions", "index size",
+                      "per item"], sys_rows, caption="Systems under test",
+                     numeric=[False, False, False, False, True, True, True])
+    settings = [("catalogue", el("code", None, cat["path"])),
+                ("fingerprint", el("code", None, cat["fingerprint"])),
+                ("metrics", ", ".join(setup["metrics"])),
+                ("ranking depth", setup["depth"]),
+                ("bootstrap resamples", setup["resamples"]),
+                ("seed", setup["seed"]),
+                ("significance level", f"{setup['alpha']:g} (Holm-corrected)")]
+    settings += [(k, v) for k, v in setup.get("notes", {}).items()]
+    versions = ", ".join(f"{k} {v}" for k, v in setup.get("versions", {}).items())
+    settings.append(("versions", versions))
+    dl = el("dl", {"class_": "settings"},
+            *(join(el("dt", None, k), el("dd", None, v)) for k, v in settings))
+    return _section("setup", 1, "Setup", dl, el("div", {"class_": "pair"}, types, judgments),
+                    systems)
+
+
+def _scores_of(ev: Mapping[str, Any], metric: str,
+               type_: str | None) -> dict[str, Mapping[str, Any]]:
+    return {s["run"]: s for s in ev["scores"] if s["metric"] == metric and s["type"] == type_}
+
+
+def _evaluation(bundle: Mapping[str, Any], ev: Mapping[str, Any], number: int,
+                looks: Mapping[str, Look]) -> Markup:
+    slug = _slug(ev["name"])
+    anchor = f"eval-{slug}"
+    primary = bundle["setup"]["primary"]
+    badge = el("span", {"class_": "badge silver" if ev.get("silver") else "badge human"},
+               "silver · estimates" if ev.get("silver") else "human judgments")
+    intro = el("p", {"class_": "intro"}, badge, " ", f"{ev['queries']} queries, "
+               f"{ev['judgments']} judgments ({ev.get('how', '')}). Baseline for "
+               "comparisons: ", el("strong", None, ev["baseline"]), ".")
+    warnings = None
+    if ev.get("warnings"):
+        warnings = el("ul", {"class_": "warnings"},
+                      *(el("li", None, w) for w in ev["warnings"]))
+    parts = [intro, warnings,
+             _quality_latency(bundle, ev, slug, primary, looks),
+             _per_type(bundle, ev, slug, primary, looks),
+             _comparison(bundle, ev, slug),
+             _misses(ev, slug, looks),
+             _worst(ev, slug)]
+    title = f"Results: {ev['label']}" + (" (silver, estimates)" if ev.get("silver") else "")
+    return _section(anchor, number, title, *parts)
+
+
+def _quality_latency(bundle, ev, slug: str, primary: str, looks) -> Markup:
+    scores = _scores_of(ev, primary, None)
+    systems = {s["name"]: s for s in bundle["systems"]}
+    points, rows = [], []
+    for name in (s["name"] for s in bundle["systems"]):
+        sc = scores.get(name)
+        lat = ev["latency"].get(name, {})
+        if sc is None:
+            continue
+        if lat.get("p50_ms") is not None and sc["mean"] is not None:
+            points.append(Point(name, lat["p50_ms"], sc["mean"], _or(sc["low"], sc["mean"]),
+                                _or(sc["high"], sc["mean"]), looks[name]))
+        key = f"{ev['name']}|{name}|{primary}|all"
+        rows.append([_swatch(name, looks), _cell(fmt.num(sc["mean"]), key),
+                     _cell(fmt.interval(sc["low"], sc["high"]), key + "|interval"),
+                     _cell(fmt.ms(lat.get("p50_ms"))), _cell(fmt.ms(lat.get("p95_ms"))),
+                     _cell(fmt.num(lat.get("queries_per_s"), 0)),
+                     _cell(fmt.size(systems.get(name, {}).get("index_bytes")))])
+    estimate = " (silver: estimates)" if ev.get("silver") else ""
+    title = f"{primary} against p50 query latency, {ev['label']}{estimate}"
+    chart = (quality_latency(points, primary, f"chart-ql-{slug}", title) if points
+             else el("p", None, "No latency figures to plot."))
+    table = _table(["system", primary, "95% interval", "p50 ms", "p95 ms", "queries/s",
+                    "index size"], rows, caption=f"Figures behind the chart: {title}")
+    notes = ev.get("latency_note") or ("Latency: one query at a time (encode + search), "
+                                       "warm-up excluded.")
+    return el("div", {"class_": "block", "id": f"quality-{slug}"},
+              el("h3", None, "Quality and speed"),
+              _figure(chart, f"Up is better, left is faster. Whiskers: 95% bootstrap interval "
+                             f"of the mean over queries. {notes}", table))
+
+
+def _or(v, default):
+    return default if v is None else v
+
+
+def _per_type(bundle, ev, slug: str, primary: str, looks) -> Markup:
+    types = [t for t in bundle["setup"]["catalogue"]["types"]
+             if any(s["type"] == t for s in ev["scores"])]
+    names = [s["name"] for s in bundle["systems"]]
+    groups, rows = [], []
+    for t in types:
+        scores = _scores_of(ev, primary, t)
+        n = next((s["n"] for s in scores.values()), 0)
+        bars = tuple(Bar(name, scores[name]["mean"], _or(scores[name]["low"], scores[name]["mean"]),
+                         _or(scores[name]["high"], scores[name]["mean"]), looks[name])
+                     for name in names if name in scores and scores[name]["mean"] is not None)
+        groups.append(BarGroup(f"{t} (n={n})", bars))
+        rows.append([t, n] + [_cell(fmt.num(scores[name]["mean"]) if name in scores
+                                    else fmt.MISSING, f"{ev['name']}|{name}|{primary}|{t}")
+                              for name in names])
+    estimate = " (silver: estimates)" if ev.get("silver") else ""
+    title = f"{primary} per destination type, {ev['label']}{estimate}"
+    if not groups:
+        return el("div", {"class_": "block", "id": f"types-{slug}"},
+                  el("h3", None, "By destination type"),
+                  el("p", None, "No per-type figures (no catalogue types matched the judged "
+                                "items)."))
+    chart = grouped_bars(groups, primary, f"chart-types-{slug}", title)
+    table = _table(["destination type", "queries"] + names, rows,
+                   caption=f"Figures behind the chart: {title}")
+    how = ev.get("type_rule", "A query counts toward the type of its best-judged item.")
+    return el("div", {"class_": "block", "id": f"types-{slug}"},
+              el("h3", None, "By destination type"),
+              _figure(chart, f"Bars: mean {primary}; whiskers: 95% bootstrap interval. {how}",
+                      table))
+
+
+def _comparison(bundle, ev, slug: str) -> Markup:
+    rows = []
+    alpha = bundle["setup"]["alpha"]
+    for c in ev["comparison"]:
+        key = f"{ev['name']}|{c['run']}|{c['metric']}|{c['type'] or 'all'}"
+        mark = fmt.mark(c["diff"], c["p_corrected"], alpha)
+        rows.append([c["run"], c["metric"], c["type"] or "all", c["n"],
+                     _cell(fmt.signed(c["diff"]), key + "|diff"),
+                     _cell(fmt.interval(c["low"], c["high"])),
+                     _cell(fmt.pvalue(c["p_bootstrap"])),
+                     _cell(fmt.pvalue(c["p_randomisation"])),
+                     _cell(fmt.pvalue(c["p_corrected"]), key + "|p"),
+                     _cell(fmt.num(c.get("effect"), 2)),
+                     _cell(mark, cls=f"mark {_mark_class(mark)}")])
+    table = _table(["system", "metric", "type", "queries", "difference", "95% interval",
+                    "p boot.", "p rand.", "p Holm", "effect", ""], rows,
+                   caption=f"Each system minus the baseline {ev['baseline']}",
+                   numeric=[False, False, False, True, True, True, True, True, True, True,
+                            False], cls="data compact")
+    return el("div", {"class_": "block", "id": f"compare-{slug}"},
+              el("h3", None, "Compared with the baseline"),
+              el("p", {"class_": "legend"}, fmt.MARK_LEGEND, f"; alpha {alpha:g}. "
+                 "p boot.: paired bootstrap; p rand.: paired randomisation (sign-flip) test; "
+                 "p Holm: the bootstrap p-value with Holm's correction across every row of "
+                 "this table. Effect: standardised mean difference (difference divided by "
+                 "the spread of per-query differences)."),
+              table if rows else el("p", None, "Only one system: nothing to compare."))
+
+
+def _mark_class(mark: str) -> str:
+    return {fmt.BETTER: "up", fmt.WORSE: "down"}.get(mark, "flat")
+
+
+def _misses(ev, slug: str, looks) -> Markup:
+    blocks = []
+    for m in ev["misses"]:
+        k = m["k"]
+        lost_types = sorted({t for r in m["rows"] for t in r["lost_to"]})
+        rows = []
+        for r in m["rows"]:
+            cells = [r["type"], r["queries"],
+                     _cell(fmt.share(r["hit_at_1"]), f"{ev['name']}|{m['run']}|hit@1|{r['type']}"),
+                     _cell(fmt.share(r["hit_at_k"])), r["misses"],
+                     fmt.num(r["median_rank"], 1) if r["median_rank"] is not None
+                     else fmt.MISSING]
+            for t in lost_types:
+                v = r["lost_to"].get(t)
+                cells.append(DataCell(el("td", {"class_": "num heat", "style": _heat(v)},
+                                         fmt.share(v) if v else "")))
+            rows.append(cells)
+        header = ["wanted type", "queries", "hit@1", f"hit@{k}", f"missed top {k}",
+                  "median first rank"] + [f"lost to {t}" for t in lost_types]
+        blocks.append(el("div", {"class_": "miss"},
+                         el("h4", None, _swatch(m["run"], looks)),
+                         _table(header, rows, caption=f"{m['run']}: where queries of each type "
+                                "go wrong (lost to: type of the rank-1 item when the wanted "
+                                "item is not first)", cls="data compact")))
+    return el("div", {"class_": "block", "id": f"misses-{slug}"},
+              el("h3", None, "Misses by destination type"),
+              el("p", {"class_": "legend"}, ev.get("miss_headline", "")),
+              *blocks)
+
+
+def _heat(v: float | None) -> str | None:
+    """Cell shade by share, one hue plus the printed number (never colour alone)."""
+    if not v:
+        return None
+    return f"background: rgba(213, 94, 0, {0.08 + 0.6 * min(v, 1.0):.2f})"
+
+
+def _item(it: Mapping[str, Any] | None) -> Markup:
+    if not it:
+        return el("span", {"class_": "none"}, "nothing retrieved")
+    return el("div", {"class_": "item"},
+              el("span", {"class_": "type"}, it["type"]), " ",
+              el("span", {"class_": "title"}, it["title"] or it["id"]), " ",
+              el("code", None, it["id"]),
+              el("p", {"class_": "snippet"}, it.get("snippet", "")) if it.get("snippet")
+              else None)
+
+
+def _worst(ev, slug: str) -> Markup:
+    worst = ev.get("worst") or {}
+    queries = worst.get("queries", [])
+    by_type: dict[str, list[Mapping[str, Any]]] = {}
+    for q in queries:
+        by_type.setdefault(q["type"], []).append(q)
+    blocks = []
+    for t, qs in by_type.items():
+        rows = []
+        for q in qs[:WORST_PER_TYPE]:
+            rank = q["rank"] if q["rank"] is not None else f"not in top {worst.get('depth', '')}"
+            rows.append(el("tr", None,
+                           el("th", {"scope": "row"}, el("q", None, q["query"]),
+                              el("div", {"class_": "qid"}, q["qid"])),
+                           el("td", None, _item(q["wanted"])),
+                           el("td", {"class_": "num"}, rank),
+                           el("td", None, _item(q["winner"]))))
+        blocks.append(el("div", {"class_": "table-wrap"}, el("table", {"class_": "data worst"},
+                         el("caption", None, f"{t}: worst queries"),
+                         el("thead", None, el("tr", None,
+                            el("th", {"scope": "col"}, "query"),
+                            el("th", {"scope": "col"}, "wanted item"),
+                            el("th", {"scope": "col", "class_": "num"}, "its rank"),
+                            el("th", {"scope": "col"}, "what came first instead"))),
+                         el("tbody", None, *rows))))
+    run = worst.get("run", ev["baseline"])
+    return el("div", {"class_": "block", "id": f"worst-{slug}"},
+              el("h3", None, f"Worst queries per type ({run})"),
+              el("p", {"class_": "legend"}, "Queries whose wanted item ranked lowest, with "
+                 "the item that was ranked first instead."),
+              *(blocks or [el("p", None, "No misses to show.")]))
+
+
+def _agreement(ag: Mapping[str, Any], number: int, looks) -> Markup:
+    points = [Point(s["run"], s["score_a"], s["score_b"], s["score_b"], s["score_b"],
+                    looks.get(s["run"], look(0)))
+              for s in ag["systems"]]
+    a, b, metric = ag["a_label"], ag["b_label"], ag["metric"]
+    title = f"{metric} of each system under {a} (x) and {b} (y)"
+    chart = agreement_scatter(points, f"{metric}, {a}", f"{metric}, {b}", "chart-agreement",
+                              title)
+    rows = [[_swatch(s["run"], looks),
+             _cell(fmt.num(s["score_a"]), f"agreement|{s['run']}|a"),
+             _cell(fmt.num(s["rank_a"], 1)),
+             _cell(fmt.num(s["score_b"]), f"agreement|{s['run']}|b"),
+             _cell(fmt.num(s["rank_b"], 1))] for s in ag["systems"]]
+    table = _table(["system", f"{metric}, {a}", "rank", f"{metric}, {b}", "rank"], rows,
+                   caption=f"Figures behind the chart: {title}")
+    tau, rho = ag["tau"], ag["rho"]
+    summary = el("p", {"class_": "headline"},
+                 "Kendall's tau ", el("strong", {"data_cell": "agreement|tau"},
+                                      fmt.num(tau["value"], 2)),
+                 f" (95% interval {fmt.interval(tau['low'], tau['high'], 2)}), Spearman's rho ",
+                 el("strong", {"data_cell": "agreement|rho"}, fmt.num(rho["value"], 2)),
+                 f" (95% interval {fmt.interval(rho['low'], rho['high'], 2)}), over "
+                 f"{len(ag['systems'])} systems; {ag['shared']} queries in both sets.")
+    flips = (el("ul", None, *(el("li", None, f"{f['first']} is ahead of {f['second']} under {a} "
+                                  f"by {fmt.num(f['diff_a'])} but behind under {b} by "
+                                  f"{fmt.num(-f['diff_b'])}") for f in ag["flips"]))
+             if ag["flips"] else el("p", None, "No pair of systems changes order."))
+    return _section("agreement", number, f"Agreement: {a} against {b}",
+                    el("p", {"class_": "intro"}, "Do the two judgment sets rank the systems "
+                       "alike? If they do, decisions made on the silver set would hold up "
+                       "under human judgment."),
+                    summary,
+                    _figure(chart, "Points on the dashed line score the same under both sets.",
+                            table),
+                    el("h3", None, "Pairs that change order"), flips)
+
+
+def _reading_guide(bundle, number: int) -> Markup:
+    alpha = bundle["setup"]["alpha"]
+    terms = [
+        ("nDCG@10", "graded gain of the top ten, discounted by rank, relative to the best "
+                    "possible ordering (1 is perfect)."),
+        ("MRR@10", "1 / rank of the first relevant item within the top ten, else 0."),
+        ("recall@k", "share of the relevant items found in the top k."),
+        ("interval", "95% percentile bootstrap interval over queries (resampled "
+                     f"{bundle['setup']['resamples']} times, seed {bundle['setup']['seed']})."),
+        ("p (Holm)", "two-sided p-value from the paired bootstrap, corrected with Holm's "
+                     f"method across the rows of a comparison table; marks use alpha {alpha:g}."),
+        ("silver", "judgments made by the tool from the catalogue itself; useful to rank "
+                   "systems, but their absolute values are estimates."),
+    ]
+    return _section("reading", number, "How to read this report",
+                    el("dl", {"class_": "terms"},
+                       *(join(el("dt", None, k), el("dd", None, v)) for k, v in terms)),
+                    el("p", {"class_": "legend"}, fmt.MARK_LEGEND))
+
+
+STYLE = """
+:root{--paper:#fbf8f1;--ink:#1b2b34;--muted:#5b6770;--rule:#d9d2c3;--accent:#1f6f78;
+--up:#0072B2;--down:#D55E00;--silver:#8a8f96;--gold:#9a6b00}
+*{box-sizing:border-box}
+html{background:var(--paper);color:var(--ink)}
+body{margin:0 auto;max-width:64rem;padding:1.5rem 1.25rem 3rem;
+font:15px/1.5 system-ui,-apple-system,"Segoe UI",Roboto,"Noto Sans",sans-serif}
+code{font:0.86em ui-monospace,"SF Mono",Menlo,Consolas,monospace;background:#efe9dc;
+padding:0 .25em;border-radius:3px;word-break:break-all}
+.masthead{border-bottom:3px double var(--rule);padding-bottom:.75rem;margin-bottom:1rem}
+.kicker{margin:0;text-transform:uppercase;letter-spacing:.12em;font-size:.75rem;color:var(--accent);
+font-weight:700}
+h1{font:700 1.9rem/1.2 Georgia,"Times New Roman",serif;margin:.2rem 0 .4rem}
+h2{font:700 1.35rem/1.25 Georgia,"Times New Roman",serif;margin:2.2rem 0 .6rem;
+border-top:1px solid var(--rule);padding-top:1rem;display:flex;gap:.6rem;align-items:baseline}
+h3{font-size:1.02rem;margin:1.6rem 0 .4rem;color:var(--accent)}
+h4{font-size:.95rem;margin:1rem 0 .2rem}
+.secno{font:700 .85rem/1 system-ui,sans-serif;color:var(--paper);background:var(--accent);
+border-radius:999px;min-width:1.6rem;height:1.6rem;display:inline-flex;align-items:center;
+justify-content:center}
+.lede{margin:0;color:var(--muted)}
+.notice{border-left:5px solid var(--silver);background:#f1efea;padding:.6rem .8rem;margin:.8rem 0 0}
+nav ol{display:flex;flex-wrap:wrap;gap:.3rem 1.2rem;padding:0;margin:0 0 .5rem;list-style:none;
+counter-reset:c}
+nav li{counter-increment:c}nav li::before{content:counter(c) ". ";color:var(--muted)}
+a{color:var(--accent)}
+.badge{display:inline-block;font-size:.75rem;font-weight:700;padding:.05rem .5rem;border-radius:999px;
+border:1px solid currentColor;white-space:nowrap}
+.badge.silver{color:#4f555c;background:repeating-linear-gradient(135deg,#eceef0 0 6px,#e2e5e8 6px 12px)}
+.badge.human{color:var(--gold);background:#fbf1d8}
+.settings,.terms{display:grid;grid-template-columns:max-content 1fr;gap:.15rem 1rem;margin:.5rem 0}
+dt{font-weight:600;color:var(--muted)}dd{margin:0}
+.pair{display:flex;flex-wrap:wrap;gap:0 2rem}
+.table-wrap{overflow-x:auto;margin:.4rem 0 .8rem}
+table.data{border-collapse:collapse;font-size:.86rem;font-variant-numeric:tabular-nums}
+table.data caption{text-align:left;font-size:.8rem;color:var(--muted);padding-bottom:.25rem}
+table.data th,table.data td{padding:.22rem .6rem;border-bottom:1px solid var(--rule);
+text-align:left;vertical-align:top}
+table.data thead th{border-bottom:2px solid var(--ink);font-weight:600}
+table.data tbody th{font-weight:500}
+.num{text-align:right!important;white-space:nowrap}
+.compact td,.compact th{padding:.15rem .45rem}
+.mark{font-size:1rem;text-align:center}.mark.up{color:var(--up)}.mark.down{color:var(--down)}
+.mark.flat{color:var(--muted)}
+.swatch{display:inline-block;width:.8rem;height:.8rem;margin-right:.4rem;background:var(--c);
+vertical-align:-.05rem;border:1px solid #fff;outline:1px solid var(--c)}
+.swatch.m-circle{border-radius:50%}
+.swatch.m-triangle{clip-path:polygon(50% 0,100% 100%,0 100%)}
+.swatch.m-down{clip-path:polygon(0 0,100% 0,50% 100%)}
+.swatch.m-diamond{clip-path:polygon(50% 0,100% 50%,50% 100%,0 50%)}
+.swatch.m-cross{clip-path:polygon(35% 0,65% 0,65% 35%,100% 35%,100% 65%,65% 65%,65% 100%,35% 100%,35% 65%,0 65%,0 35%,35% 35%)}
+figure{margin:.5rem 0 1rem}
+figcaption{font-size:.82rem;color:var(--muted);margin:.2rem 0 .3rem}
+.chart-wrap{overflow-x:auto}
+svg.chart{max-width:100%;height:auto;background:#fffdf8;border:1px solid var(--rule)}
+svg .axis{stroke:var(--ink);stroke-width:1}
+svg .grid{stroke:var(--rule);stroke-width:.6;stroke-dasharray:2 3}
+svg .tick{font-size:11px;fill:var(--muted)}
+svg .axis-label{font-size:12px;fill:var(--ink)}
+svg .point-label,svg .group-label{font-size:12px;fill:var(--ink)}
+svg .whisker{stroke-width:1.6}
+svg .whisker-dark{stroke:var(--ink);stroke-width:1.3}
+svg .bar{stroke:var(--ink);stroke-width:.4}
+svg .diagonal{stroke:var(--muted);stroke-dasharray:5 4}
+.legend{font-size:.82rem;color:var(--muted)}
+.headline{font-size:1.05rem}
+.warnings{font-size:.85rem;color:#7a4100}
+.worst q{font-style:italic}.worst .qid{font-size:.75rem;color:var(--muted)}
+.item .type{font-size:.7rem;text-transform:uppercase;letter-spacing:.06em;color:var(--muted)}
+.item .title{font-weight:600}
+.snippet{margin:.1rem 0 0;font-size:.8rem;color:var(--muted);max-width:26rem}
+.how{color:var(--muted);font-size:.82rem}
+footer{margin-top:3rem;border-top:1px solid var(--rule);padding-top:.6rem;font-size:.8rem;
+color:var(--muted)}
+@media print{html,body{background:#fff}body{max-width:none;font-size:11pt;padding:0}
+nav{display:none}section{break-inside:auto}figure,.block,table{break-inside:avoid}
+h2,h3{break-after:avoid}a{color:inherit;text-decoration:none}
+svg.chart{border:none}.notice{border:1px solid #999}
+.badge.silver{background:none}}
+"""
