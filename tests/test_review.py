@@ -495,3 +495,50 @@ def test_cli_import_lists_reviewer_agreement(world):
     assert "1 disagreement(s) (grades per sheet -> merged):" in res.stdout
     assert (f"  s2 frm-refund: 'refund late bus' / '+Request a refund': {d / 'p-1.csv'} 2, "
             f"{d / 'p-2.csv'} 0 -> 1") in res.stdout
+
+
+# --- .xlsx ----------------------------------------------------------------------------------
+
+def test_xlsx_sheet_has_a_verdict_drop_down_text_ids_and_stable_bytes(world):
+    from openpyxl import load_workbook
+
+    out = world["dir"] / "sheet.xlsx"
+    export_sheet(world["qrels"], world["queries"], world["catalogue"], out)
+    first = out.read_bytes()
+    export_sheet(world["qrels"], world["queries"], world["catalogue"], out)
+    assert out.read_bytes() == first
+    ws = load_workbook(out).active
+    (dv,) = ws.data_validations.dataValidation
+    assert dv.type == "list" and dv.formula1 == '"ok,no,0,1,2"'
+    assert str(dv.sqref) == "K5:K14"  # the verdict column of the 10 data rows
+    assert [c.value for c in ws[4]] == list(COLUMNS)
+    ids = [ws.cell(r, 4).value for r in range(5, 15)]
+    assert "007" in ids and "'-frm-lost" in ids  # text, not a number; guarded like CSV
+    assert all(ws.cell(r, c).data_type == "s" for r in range(5, 15) for c in (1, 4, 6))
+
+
+def test_xlsx_filled_by_a_person_imports(world):
+    from openpyxl import load_workbook
+
+    out = world["dir"] / "sheet.xlsx"
+    export_sheet(world["qrels"], world["queries"], world["catalogue"], out)
+    assert import_sheets([out], world["catalogue"]).qrels == world["qrels"]
+    wb = load_workbook(out)
+    ws = wb.active
+    for r in range(5, ws.max_row + 1):
+        key = (ws.cell(r, 1).value, ws.cell(r, 4).value)
+        if key == ("s1", "kb-fares"):
+            ws.cell(r, 11).value = 1  # typed as a number, as people do
+        if key == ("s2", "frm-refund"):
+            ws.cell(r, 11).value = "no"
+    wb.save(out)
+    result = import_sheets([out], world["catalogue"])
+    assert result.qrels["s1"]["kb-fares"] == 1 and result.qrels["s2"]["frm-refund"] == 0
+    assert result.report.sheets[0].filled == 2
+
+
+def test_broken_xlsx_gives_one_located_error(world):
+    bad = world["dir"] / "bad.xlsx"
+    bad.write_bytes(b"PK\x03\x04 not really a workbook")
+    with pytest.raises(InputError, match=r"bad.xlsx: cannot read the .xlsx sheet"):
+        import_sheets([bad], world["catalogue"])

@@ -153,8 +153,8 @@ def review() -> None:
 @click.argument("queries", type=click.Path(dir_okay=False))
 @click.argument("catalogue", type=click.Path(dir_okay=False))
 @click.option("-o", "--output", required=True, type=click.Path(dir_okay=False),
-              help="Sheet to write (.csv). With --reviewers N: one sheet per reviewer, "
-                   "named STEM-1.csv ... STEM-N.csv.")
+              help="Sheet to write: .csv, or .xlsx with a drop-down for the verdict. With "
+                   "--reviewers N: one sheet per reviewer, named STEM-1 ... STEM-N.")
 @click.option("--runs", "run_paths", multiple=True, type=click.Path(dir_okay=False),
               metavar="RUN", help="Run whose unjudged top results are added for review "
                                   "(repeat for several runs).")

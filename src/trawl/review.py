@@ -53,7 +53,7 @@ REASONS = ("silver", "pooled")  # judged in the input qrels / retrieved by a run
 PAIRS = ("silver", "pooled", "both")
 SNIPPET_CHARS = 240
 DEFAULT_OVERLAP = 0.2  # common practice, no source: a fifth of the queries double-reviewed
-FORMATS = (".csv",)
+FORMATS = (".csv", ".xlsx")
 _DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 _GUARDED = re.compile(r"^'+[=+\-@\t\r]")
 _SCALE_NOTE = re.compile(r"^#\s*grade scale:\s*0\s*-\s*(\d+)\s*$")
@@ -234,7 +234,7 @@ def _check_export_options(out: Path, runs: Sequence[Run], pairs: str, depth: int
                           max_grade: int | None) -> None:
     """Reject conflicting or out-of-range options before any work, naming the flags."""
     if out.suffix.lower() not in FORMATS:
-        raise UsageError(f"sheet {out} must end in .csv")
+        raise UsageError(f"sheet {out} must end in .csv or .xlsx")
     if pairs not in PAIRS:
         raise UsageError(f"--pairs {pairs!r} is not one of: {', '.join(PAIRS)}")
     if pairs in ("pooled", "both") and not runs:
@@ -391,10 +391,8 @@ def write_sheet(path: str | Path, rows: Sequence[SheetRow], max_grade: int,
     path = Path(path)
     notes = _notes(max_grade, note)
     if path.suffix.lower() == ".xlsx":
-        from .review_xlsx import write_xlsx
-
-        write_xlsx(path, notes, COLUMNS, [[guard_cell(c) for c in r.cells()] for r in rows],
-                   verdicts(max_grade), COLUMNS.index("verdict"))
+        _write_xlsx(path, notes, [[guard_cell(c) for c in r.cells()] for r in rows],
+                    verdicts(max_grade))
         return
     with atomic_write(path, encoding="utf-8-sig", newline="") as fh:
         w = csv.writer(fh, lineterminator="\r\n")
@@ -403,6 +401,88 @@ def write_sheet(path: str | Path, rows: Sequence[SheetRow], max_grade: int,
         w.writerow(COLUMNS)
         for r in rows:
             w.writerow([guard_cell(c) for c in r.cells()])
+
+
+XLSX_WIDTHS = {"query": 32, "title": 36, "snippet": 60, "link": 24, "note": 30}
+_FIXED_TIME = (1980, 1, 1, 0, 0, 0)  # zip entry times, so the same sheet gives the same bytes
+
+
+def _write_xlsx(path: Path, notes: list[str], rows: list[list[str]],
+                allowed: list[str]) -> None:
+    """An .xlsx sheet: every cell text (ids like "007" stay text), a drop-down of the
+    allowed verdicts, the header frozen. Written byte-identically for the same rows."""
+    import datetime
+    import zipfile
+
+    from openpyxl import Workbook
+    from openpyxl.styles import Font
+    from openpyxl.utils import get_column_letter
+    from openpyxl.worksheet.datavalidation import DataValidation
+    from openpyxl.writer.excel import ExcelWriter
+
+    wb = Workbook()
+    ws = wb.active
+    ws.title = "review"
+    for r, line in enumerate(notes, start=1):
+        ws.cell(r, 1, line).data_type = "s"
+    head = len(notes) + 1
+    for c, name in enumerate(COLUMNS, start=1):
+        cell = ws.cell(head, c, name)
+        cell.font = Font(bold=True)
+        ws.column_dimensions[get_column_letter(c)].width = XLSX_WIDTHS.get(name, 12)
+    for r, cells in enumerate(rows, start=head + 1):
+        for c, value in enumerate(cells, start=1):
+            cell = ws.cell(r, c, value)
+            cell.data_type = "s"
+            cell.number_format = "@"
+    col = get_column_letter(COLUMNS.index("verdict") + 1)
+    dv = DataValidation(type="list", formula1='"' + ",".join(allowed) + '"', allow_blank=True,
+                        showErrorMessage=True, errorTitle="verdict",
+                        error="Use " + ", ".join(allowed) + " or leave the cell blank.")
+    dv.add(f"{col}{head + 1}:{col}{max(head + 1, head + len(rows))}")
+    ws.add_data_validation(dv)
+    ws.freeze_panes = ws.cell(head + 1, 1)
+    fixed = datetime.datetime(2000, 1, 1)
+    wb.properties.created = wb.properties.modified = fixed
+    wb.properties.creator = "trawl"
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w", zipfile.ZIP_DEFLATED) as archive:
+        ExcelWriter(wb, archive).save()
+    with zipfile.ZipFile(buf) as src, atomic_write(path, "wb") as fh, \
+            zipfile.ZipFile(fh, "w", zipfile.ZIP_DEFLATED) as dst:
+        for info in src.infolist():
+            dst.writestr(zipfile.ZipInfo(info.filename, _FIXED_TIME), src.read(info.filename),
+                         compress_type=zipfile.ZIP_DEFLATED)
+
+
+def _xlsx_records(path: Path) -> list[tuple[int, list[str]]]:
+    """Rows of the first worksheet as text cells, numbered like the spreadsheet shows."""
+    import zipfile
+
+    from openpyxl import load_workbook
+    from openpyxl.utils.exceptions import InvalidFileException
+
+    if not path.is_file():
+        raise InputError(path, "review sheet not found")
+    try:
+        wb = load_workbook(path, read_only=True, data_only=True)
+        try:
+            ws = wb.worksheets[0]
+            return [(n, [_xlsx_text(v) for v in row])
+                    for n, row in enumerate(ws.iter_rows(values_only=True), start=1)]
+        finally:
+            wb.close()
+    except (zipfile.BadZipFile, InvalidFileException, KeyError, OSError, ValueError,
+            IndexError) as exc:
+        raise InputError(path, f"cannot read the .xlsx sheet: {exc}".rstrip()) from None
+
+
+def _xlsx_text(v: Any) -> str:
+    if v is None:
+        return ""
+    if isinstance(v, float) and v.is_integer():
+        return str(int(v))
+    return str(v)
 
 
 def verdicts(max_grade: int) -> list[str]:
@@ -429,9 +509,7 @@ def read_sheet(path: str | Path, catalogue: Catalogue) -> Sheet:
     """
     path = Path(path)
     if path.suffix.lower() == ".xlsx":
-        from .review_xlsx import read_xlsx
-
-        records = read_xlsx(path)
+        records = _xlsx_records(path)
     else:
         records = _csv_records(path)
     return _parse_sheet(path, records, catalogue)
