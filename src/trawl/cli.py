@@ -14,7 +14,7 @@ from typing import Any
 import click
 
 from . import __version__
-from .errors import TrawlError
+from .errors import TrawlError, UsageError
 
 
 class _Group(click.Group):
@@ -373,6 +373,320 @@ def agree(qrels_a: str, qrels_b: str, runs: tuple[str, ...], metric: str, resamp
 
 def _rank(r: float) -> str:
     return f"{r:g}"
+
+# --- synth --------------------------------------------------------------------------------------
+
+@main.command()
+@click.argument("catalogue", type=click.Path(dir_okay=False))
+@click.option("-o", "--output", "prefix", required=True, metavar="PREFIX",
+              help="Write PREFIX.queries.tsv, PREFIX.qrels and PREFIX.jsonl.")
+@click.option("-n", "--per-item", type=int, default=1, show_default=True,
+              help="Query slots per item (a slot may be dropped by the filters).")
+@click.option("--sample", type=int, default=None, metavar="N",
+              help="Use N items, stratified by destination type (default: every item).")
+@click.option("--styles", default=None, metavar="MIX",
+              help="Style mix, e.g. 'keyword,paraphrase:3' (weight 1 when omitted). Styles: "
+                   "keyword, question, paraphrase, typo, llm. Default: "
+                   "keyword:1,question:1,paraphrase:4,typo:1.")
+@seed_option
+@click.option("--lexicon", type=click.Path(dir_okay=False), default=None,
+              help="Domain lexicon: lines of 'catalogue wording = everyday wording, ...'.")
+@click.option("--wordnet", "wordnet_dir", type=click.Path(file_okay=False), default=None,
+              help="WordNet 3.0 folder (default: /usr/share/wordnet if present).")
+@click.option("--calibrate-with", type=click.Path(dir_okay=False), default=None,
+              metavar="QUERIES.tsv",
+              help="Real, unjudged queries (e.g. a search-log sample) to match the overlap "
+                   "profile to. Default profile: targets spread over 0-0.75.")
+@click.option("--max-overlap", type=float, default=None,
+              help="Drop queries sharing more than this share of words with their item.")
+@click.option("--check-with", multiple=True, metavar="SPEC",
+              help="Keep only queries whose source this encoder (fused if repeated) finds "
+                   "in its top --check-depth. Off by default: a checker favours its kind.")
+@click.option("--check-depth", type=int, default=None, help="Depth of --check-with [20].")
+@click.option("--related-grade", type=int, default=1, show_default=True,
+              help="Grade of items in the source's 'related' field (0: not judged).")
+@click.option("--typo-rate", type=float, default=0.15, show_default=True,
+              help="Chance that a word of 4+ letters gets a typo (typo style).")
+@click.option("--llm-url", default=None, help="OpenAI-compatible server for the llm style.")
+@click.option("--llm-model", default=None, help="Model name to ask the --llm-url server for.")
+@click.option("--llm-examples", type=click.Path(dir_okay=False), default=None,
+              metavar="QUERIES.tsv", help="Real queries shown to the model as style examples.")
+@click.option("--llm-timeout", type=float, default=30.0, show_default=True,
+              help="Seconds to wait for each reply.")
+@click.option("--llm-key-env", default="TRAWL_LLM_API_KEY", show_default=True,
+              metavar="NAME", help="Environment variable holding the server's API key, if any.")
+@template_option
+@json_option
+@quiet_option
+def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles: str | None,
+          seed: int, lexicon: str | None, wordnet_dir: str | None, calibrate_with: str | None,
+          max_overlap: float | None, check_with: tuple[str, ...], check_depth: int | None,
+          related_grade: int, typo_rate: float, llm_url: str | None, llm_model: str | None,
+          llm_examples: str | None, llm_timeout: float, llm_key_env: str,
+          template: str | None, as_json: bool, quiet: bool) -> None:
+    """Synthesise pseudo-queries with graded silver judgments: the source item is grade 2,
+    its related items grade 1. Prints queries per style and destination type, their
+    length and their word overlap with the source item.
+
+    Silver judgments are estimates made by a program, not by people.
+
+    \b
+    Example:
+      trawl synth corpora/quillfern.jsonl -o silver/quillfern --per-item 2 --seed 7
+      trawl synth items.jsonl -o out/s --styles keyword,paraphrase:3 --lexicon words.txt
+      trawl synth items.jsonl -o out/s --calibrate-with log-sample.tsv --sample 200
+    """
+    import os
+
+    from .catalogue import load_catalogue
+    from .errors import UsageError
+    from .queries import read_queries
+    from .synth import LlmClient, load_wordnet, read_lexicon, synthesise, write_silver
+    from .synth.synthesise import parse_mix
+
+    mix = parse_mix(styles)
+    if (llm_url is None) != (llm_model is None):
+        raise UsageError("--llm-url and --llm-model go together; give both or neither")
+    if llm_url is None and (llm_examples is not None or "llm" in mix):
+        raise UsageError("--llm-examples and the 'llm' style need --llm-url and --llm-model")
+    if llm_url is not None and "llm" not in mix:
+        raise UsageError("--llm-url given but 'llm' is not in --styles; add e.g. "
+                         "--styles keyword,paraphrase,llm:2")
+    if check_depth is not None and not check_with:
+        raise UsageError("--check-depth needs --check-with")
+    wordnet = "auto"
+    if wordnet_dir is not None:
+        wordnet = load_wordnet(wordnet_dir)
+        if wordnet is None:
+            raise UsageError(f"--wordnet {wordnet_dir}: no WordNet index.noun/data.noun there")
+    cat = load_catalogue(catalogue, template)
+    llm = None
+    if llm_url is not None:
+        llm = LlmClient(llm_url, llm_model, api_key=os.environ.get(llm_key_env) or None,
+                        timeout=llm_timeout,
+                        examples=tuple(read_queries(llm_examples).values()) if llm_examples
+                        else ())
+    silver = synthesise(
+        cat, per_item=per_item, sample=sample, styles=mix, seed=seed,
+        calibrate_with=read_queries(calibrate_with) if calibrate_with else None,
+        calibration_source=calibrate_with or "", max_overlap=max_overlap,
+        check_with=check_with, check_depth=check_depth or 20,
+        lexicon=read_lexicon(lexicon) if lexicon else None, wordnet=wordnet, llm=llm,
+        typo_rate=typo_rate, related_grade=related_grade, quiet=quiet)
+    paths = write_silver(prefix, silver)
+    if as_json:
+        emit_json({**silver.summary, "skipped_styles": dict(silver.skipped_styles),
+                   "files": [str(p) for p in paths]})
+        return
+    for style, why in silver.skipped_styles.items():
+        click.echo(f"skipped style {style}: {why}", err=True)
+    s = silver.summary
+    click.echo(f"{s['queries']} queries from {s['items']} items ({s['dropped']} slots dropped, "
+               f"{s['merged_drafts']} near-duplicates merged)")
+    click.echo()
+    rows = [[r["style"], r["type"], r["queries"],
+             "-" if r["mean_words"] is None else f"{r['mean_words']:.1f}",
+             "-" if r["mean_overlap"] is None else f"{r['mean_overlap']:.2f}",
+             ", ".join(f"{n} {why}" for why, n in r["dropped"].items()) or "-"]
+            for r in s["rows"]]
+    click.echo(table(rows, ["style", "type", "queries", "words", "overlap", "dropped"],
+                     "llrrrl"))
+    click.echo()
+    click.echo(f"overlap = share of query words found in the source item (mean "
+               f"{s['mean_overlap']}); profile: {s['profile']['source']}, ceiling "
+               f"{s['profile']['ceiling']}")
+    click.echo("Silver judgments are estimates, not human labels; see DEVELOPERS.md "
+               "'How good is silver?' for their measured agreement with people.")
+    for p in paths:
+        click.echo(f"wrote {p}")
+
+
+# --- index, search, fuse, distill --------------------------------------------------------------
+
+ENCODER_HELP = ("Encoder: minilm, minilm-int8, static:DIR, st:DIR[;query=PREFIX][;document=PREFIX] "
+                "or bm25[;k1=X][;b=Y].")
+
+
+@main.command("index")
+@click.argument("catalogue", type=click.Path(dir_okay=False))
+@click.option("-e", "--encoder", "spec", required=True, metavar="SPEC", help=ENCODER_HELP)
+@click.option("-o", "--output", "output", required=True, type=click.Path(file_okay=False),
+              help="Index folder to create or update (replaced atomically).")
+@click.option("--ann", type=click.Choice(["exact", "hnsw"]), default="exact", show_default=True,
+              help="exact inner-product search, or an approximate HNSW graph (faiss).")
+@click.option("--hnsw-m", type=int, default=None, help="HNSW links per node [32].")
+@click.option("--hnsw-ef-construction", type=int, default=None,
+              help="HNSW candidate list while building [200].")
+@click.option("--hnsw-ef-search", type=int, default=None,
+              help="HNSW candidate list while searching [128].")
+@click.option("--batch-size", type=int, default=32, show_default=True,
+              help="Texts per encoder batch.")
+@click.option("--cache-dir", type=click.Path(file_okay=False), default=None,
+              help="Embedding cache folder (default: $TRAWL_CACHE_DIR or ~/.cache/trawl).")
+@template_option
+@quiet_option
+@json_option
+def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int | None,
+                  hnsw_ef_construction: int | None, hnsw_ef_search: int | None, batch_size: int,
+                  cache_dir: str | None, template: str | None, quiet: bool,
+                  as_json: bool) -> None:
+    """Build or incrementally update the search index of a catalogue with one encoder.
+
+    Vectors are cached by encoder and text, so re-indexing embeds only new or edited
+    items and an interrupted build resumes where it stopped.
+
+    \b
+    Example:
+      trawl index corpora/quillfern.jsonl -e minilm -o idx/minilm
+      trawl index corpora/quillfern.jsonl -e bm25 -o idx/bm25
+      trawl index items.jsonl -e minilm-int8 -o idx/int8 --ann hnsw
+    """
+    from .catalogue import load_catalogue
+    from .index import HnswParams, build_index
+    from .retrievers import parse_spec
+
+    given = {"--hnsw-m": hnsw_m, "--hnsw-ef-construction": hnsw_ef_construction,
+             "--hnsw-ef-search": hnsw_ef_search}
+    named = [flag for flag, v in given.items() if v is not None]
+    if named and ann != "hnsw":
+        raise UsageError(f"{named[0]} needs --ann hnsw (got --ann {ann})")
+    hnsw = None
+    if ann == "hnsw":
+        d = HnswParams()
+        hnsw = HnswParams(d.m if hnsw_m is None else hnsw_m,
+                          d.ef_construction if hnsw_ef_construction is None
+                          else hnsw_ef_construction,
+                          d.ef_search if hnsw_ef_search is None else hnsw_ef_search)
+    parse_spec(spec)
+    info = build_index(load_catalogue(catalogue, template), spec, output, ann=ann,
+                       cache_dir=cache_dir, batch_size=batch_size, quiet=quiet, hnsw=hnsw)
+    if as_json:
+        emit_json(info.as_dict())
+        return
+    if info.dim:
+        done = (f"{info.dim} dims, {info.ann}): {info.embedded} embedded, {info.reused} from "
+                "cache")
+    else:
+        done = "inverted index)"
+    click.echo(f"indexed {info.items} items with {info.spec} ({done}, {info.items_per_s:.1f} "
+               f"items/s; {info.bytes:,} bytes -> {info.path}")
+
+
+@main.command()
+@click.argument("index", type=click.Path(file_okay=False))
+@click.argument("queries", type=click.Path(dir_okay=False))
+@click.option("-o", "--output", required=True, type=click.Path(dir_okay=False),
+              help="TREC run to write; latency figures go to OUTPUT.latency.json.")
+@click.option("-k", "k", type=int, default=100, show_default=True, help="Results per query.")
+@click.option("--catalogue", type=click.Path(dir_okay=False), default=None,
+              help="Catalogue to check the index against (default: the file it was built "
+                   "from, if it is still there).")
+@click.option("--name", default=None,
+              help="Run name for the tag column (default: output file name without extension).")
+@click.option("--warmup", type=int, default=5, show_default=True,
+              help="Queries run before timing starts (not counted).")
+@quiet_option
+@json_option
+def search(index: str, queries: str, output: str, k: int, catalogue: str | None,
+           name: str | None, warmup: int, quiet: bool, as_json: bool) -> None:
+    """Search an index with every query; write a TREC run and its latency figures.
+
+    Latency is encode + search of one query at a time, as a search box sends them
+    (p50/p95/p99 after warm-up); throughput is the whole set in one batch.
+
+    \b
+    Example:
+      trawl search idx/minilm qrels/quillfern-gold.queries.tsv -o runs/minilm.run
+      trawl search idx/bm25 queries.tsv -o runs/bm25.run -k 20 --json
+    """
+    from pathlib import Path
+
+    from .bench import measure_search
+    from .catalogue import load_catalogue
+    from .files import write_text_atomic
+    from .index import open_index, read_manifest
+    from .queries import read_queries
+    from .runs import write_run
+
+    manifest = read_manifest(index)
+    recorded = manifest["catalogue"]["path"]
+    cat_path = catalogue or (recorded if Path(recorded).is_file() else None)
+    if cat_path is None:
+        click.echo(f"warning: {recorded} (the catalogue this index was built from) is gone; "
+                   "cannot check the index is current (give --catalogue)", err=True)
+    cat = load_catalogue(cat_path, manifest["catalogue"]["template"]) if cat_path else None
+    idx = open_index(index, cat)
+    run_name = name or "_".join(Path(output).name.split(".")[0].split()) or "run"
+    run, report = measure_search(idx, read_queries(queries), k, warmup=warmup, quiet=quiet,
+                                 name=run_name)
+    write_run(output, run)
+    sidecar = f"{output}.latency.json"
+    write_text_atomic(sidecar, json.dumps(report.as_dict(), indent=2) + "\n")
+    if as_json:
+        emit_json({"run": output, "latency_file": sidecar, **report.as_dict()})
+        return
+    click.echo(table([[report.encoder, report.p50_ms, report.p95_ms, report.p99_ms,
+                       report.batch_queries_per_s, report.index_bytes, report.bytes_per_item]],
+                     ["encoder", "p50 ms", "p95 ms", "p99 ms", "batch q/s", "index bytes",
+                      "bytes/item"]))
+    click.echo(f"wrote {output} ({len(run)} queries, top {k}) and {sidecar} "
+               f"({report.queries_timed} queries timed one at a time, {report.warmup} warm-up "
+               f"excluded; {report.threads} threads on {report.cpu})")
+
+
+@main.command()
+@click.argument("runs", nargs=-1, required=True, type=click.Path(dir_okay=False))
+@click.option("-o", "--output", required=True, type=click.Path(dir_okay=False),
+              help="Fused TREC run to write.")
+@click.option("--rrf-k", type=int, default=60, show_default=True,
+              help="RRF constant k in 1 / (k + rank).")
+@click.option("--depth", type=int, default=None,
+              help="Ranks read from each run and kept in the fused run (default: all).")
+@click.option("--name", default=None, help="Run name for the tag column (default: rrf-A+B).")
+def fuse(runs: tuple[str, ...], output: str, rrf_k: int, depth: int | None,
+         name: str | None) -> None:
+    """Fuse runs with Reciprocal Rank Fusion, e.g. a dense and a BM25 run into a hybrid.
+
+    \b
+    Example:
+      trawl fuse runs/minilm.run runs/bm25.run -o runs/hybrid.run
+    """
+    from .retrievers.fusion import reciprocal_rank_fusion
+    from .runs import read_run, write_run
+
+    if len(runs) < 2:
+        raise UsageError(f"fuse needs at least 2 runs, got {len(runs)}")
+    fused = reciprocal_rank_fusion([read_run(r) for r in runs], k=rrf_k, depth=depth, name=name)
+    write_run(output, fused)
+    click.echo(f"wrote {output}: {fused.name}, {len(fused)} queries")
+
+
+@main.command()
+@click.option("-o", "--output", required=True, type=click.Path(file_okay=False),
+              help="Folder for the static model (replaced atomically).")
+@click.option("--pca-dims", type=int, default=256, show_default=True,
+              help="Vector size after PCA (at most 384).")
+@quiet_option
+def distill(output: str, pca_dims: int, quiet: bool) -> None:
+    """Distil a static encoder from the bundled model (model2vec), offline.
+
+    Use the result as -e static:DIR: much faster to index and query, usually less
+    accurate; `trawl eval` measures by how much.
+
+    \b
+    Example:
+      trawl distill -o models/static-256
+      trawl index items.jsonl -e static:models/static-256 -o idx/static
+    """
+    import time
+
+    from .retrievers.distill import distill_static
+
+    start = time.perf_counter()
+    path = distill_static(output, pca_dims=pca_dims, quiet=quiet)
+    click.echo(f"wrote static encoder ({pca_dims} dims) to {path} in "
+               f"{time.perf_counter() - start:.1f} s; use it as -e static:{path}")
+
 
 if __name__ == "__main__":  # pragma: no cover
     sys.exit(main())

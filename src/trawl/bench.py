@@ -1,0 +1,118 @@
+"""Latency and throughput of an index, measured the way an app would serve it.
+
+Per-query latency is encode + search of one query at a time (a search box sends one
+query per request), after a few warm-up queries that are not counted (first calls pay
+for lazy model loading, allocator growth and cold caches). Batch throughput is the
+whole query set through ``Index.search``. The run returned is the batch run.
+"""
+
+from __future__ import annotations
+
+import os
+import platform
+import time
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from .errors import UsageError
+from .runs import Run
+
+if TYPE_CHECKING:
+    from .index import Index
+
+DEFAULT_WARMUP = 5
+PERCENTILE_METHOD = "linear"  # numpy's default interpolation, stated in the sidecar
+
+
+@dataclass(frozen=True)
+class LatencyReport:
+    """What ``RUN.latency.json`` holds."""
+
+    index: str
+    encoder: str
+    ann: str
+    k: int
+    queries_timed: int
+    warmup: int
+    p50_ms: float
+    p95_ms: float
+    p99_ms: float
+    mean_ms: float
+    batch_queries: int
+    batch_seconds: float
+    batch_queries_per_s: float
+    index_bytes: int
+    items: int
+    bytes_per_item: float
+    cpu: str
+    threads: int
+
+    def as_dict(self) -> dict[str, Any]:
+        out = dict(self.__dict__)
+        out["method"] = (f"per-query: encode + search of one query at a time, "
+                         f"{self.warmup} warm-up queries excluded; percentiles "
+                         f"({PERCENTILE_METHOD}) over {self.queries_timed} queries; batch: "
+                         f"all queries through one search call")
+        return out
+
+
+def measure_search(index: Index, queries: Mapping[str, str], k: int = 100,
+                   warmup: int = DEFAULT_WARMUP, quiet: bool = True,
+                   name: str | None = None) -> tuple[Run, LatencyReport]:
+    """Batch run plus latency figures for ``queries`` against ``index``."""
+    if warmup < 0:
+        raise UsageError(f"warm-up count {warmup} must be >= 0")
+    index.check_k(k)
+    texts = list(queries.values())
+    if not texts:
+        raise UsageError("no queries to time")
+    for i in range(warmup):
+        index.search_one(texts[i % len(texts)], k)
+    per_query = []
+    for text in texts:
+        start = time.perf_counter_ns()
+        index.search_one(text, k)
+        per_query.append((time.perf_counter_ns() - start) / 1e6)
+    start = time.perf_counter()
+    run = index.search(queries, k, quiet=quiet, name=name)
+    batch_seconds = time.perf_counter() - start
+    ms = np.asarray(per_query)
+    size = index.bytes
+    report = LatencyReport(
+        index=str(index.path), encoder=str(index.spec), ann=index.manifest["search"]["ann"],
+        k=k, queries_timed=len(per_query), warmup=warmup,
+        p50_ms=_round(np.percentile(ms, 50)), p95_ms=_round(np.percentile(ms, 95)),
+        p99_ms=_round(np.percentile(ms, 99)), mean_ms=_round(ms.mean()),
+        batch_queries=len(texts), batch_seconds=_round(batch_seconds),
+        batch_queries_per_s=_round(len(texts) / batch_seconds) if batch_seconds > 0 else 0.0,
+        index_bytes=size, items=len(index), bytes_per_item=_round(size / len(index)),
+        cpu=cpu_model(), threads=compute_threads())
+    return run, report
+
+
+def _round(x: float) -> float:
+    return round(float(x), 4)
+
+
+def cpu_model() -> str:
+    try:
+        with open("/proc/cpuinfo", encoding="utf-8") as fh:
+            for line in fh:
+                if line.startswith("model name"):
+                    return line.split(":", 1)[1].strip()
+    except OSError:
+        pass
+    return platform.processor() or platform.machine()
+
+
+def compute_threads() -> int:
+    """Threads torch uses for encoding (the dominant cost), else the CPUs we may use."""
+    try:
+        import torch
+
+        return torch.get_num_threads()
+    except ImportError:
+        return len(os.sched_getaffinity(0))

@@ -1,0 +1,58 @@
+"""BM25 lexical retriever over bm25s: the baseline every encoder has to beat.
+
+Variant: bm25s' ``lucene`` scoring (Robertson & Zaragoza, 2009, with Lucene's idf
+``log(1 + (N - df + 0.5) / (df + 0.5))`` and document-length normalisation by ``b``),
+tokens from scikit-learn's word pattern, lower-cased, English stop words removed,
+no stemming.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from . import EncoderSpec
+
+STOPWORDS = "en"
+TOKENISER = {"pattern": r"(?u)\b\w\w+\b", "lower": True, "stopwords": "bm25s english",
+             "stemmer": None}
+
+
+def tokenise(texts: list[str]) -> list[list[str]]:
+    import bm25s
+
+    return bm25s.tokenize(texts, stopwords=STOPWORDS, return_ids=False, show_progress=False)
+
+
+class LexicalIndex:
+    """bm25s term-score matrix plus its vocabulary; scores every item for a query."""
+
+    def __init__(self, model: Any) -> None:
+        self._model = model
+
+    @classmethod
+    def build(cls, texts: list[str], spec: EncoderSpec) -> LexicalIndex:
+        import bm25s
+
+        model = bm25s.BM25(k1=spec.k1, b=spec.b, method="lucene")
+        model.index(tokenise(texts), show_progress=False)
+        return cls(model)
+
+    def save(self, folder: Path) -> None:
+        self._model.save(str(folder), show_progress=False)
+
+    @classmethod
+    def load(cls, folder: Path) -> LexicalIndex:
+        import bm25s
+
+        return cls(bm25s.BM25.load(str(folder)))
+
+    def scores(self, queries: list[str]) -> np.ndarray:
+        """(queries x items) BM25 scores; a query with no indexed term scores 0 everywhere."""
+        out = []
+        for tokens in tokenise(queries):
+            ids = self._model.get_tokens_ids(tokens)
+            out.append(self._model.get_scores_from_ids(ids))
+        return np.asarray(out, dtype=np.float32).reshape(len(queries), -1)
