@@ -91,8 +91,8 @@ def parse_spec(spec: str, *, check_paths: bool = True) -> EncoderSpec:
     """
     if not isinstance(spec, str) or not spec.strip():
         raise _bad(str(spec), "empty encoder")
-    head, *opts = spec.strip().split(";")
-    kind, _, arg = head.partition(":")
+    head, *opts = spec.lstrip().split(";")
+    kind, _, arg = head.strip().partition(":")
     kind = kind.strip().lower()
     options: dict[str, str] = {}
     for opt in opts:
@@ -102,7 +102,7 @@ def parse_spec(spec: str, *, check_paths: bool = True) -> EncoderSpec:
             raise _bad(spec, f"option {opt!r} is not KEY=VALUE")
         if key in options:
             raise _bad(spec, f"option {key!r} given twice")
-        options[key] = value.lstrip() if key in ("k1", "b") else value
+        options[key] = value.strip() if key in ("k1", "b") else value
     if kind in ("minilm", "minilm-int8"):
         if arg:
             raise _bad(spec, f"{kind} takes no folder")
