@@ -413,6 +413,8 @@ def _rank(r: float) -> str:
               metavar="QUERIES.tsv", help="Real queries shown to the model as style examples.")
 @click.option("--llm-timeout", type=float, default=30.0, show_default=True,
               help="Seconds to wait for each reply.")
+@click.option("--llm-retries", type=click.IntRange(0, 10), default=3, show_default=True,
+              help="Retries after a failed call, waiting 1, 2, 4, ... seconds.")
 @click.option("--llm-key-env", default="TRAWL_LLM_API_KEY", show_default=True,
               metavar="NAME", help="Environment variable holding the server's API key, if any.")
 @template_option
@@ -422,7 +424,7 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
           seed: int, lexicon: str | None, wordnet_dir: str | None, calibrate_with: str | None,
           max_overlap: float | None, check_with: tuple[str, ...], check_depth: int | None,
           related_grade: int, typo_rate: float, llm_url: str | None, llm_model: str | None,
-          llm_examples: str | None, llm_timeout: float, llm_key_env: str,
+          llm_examples: str | None, llm_timeout: float, llm_retries: int, llm_key_env: str,
           template: str | None, as_json: bool, quiet: bool) -> None:
     """Synthesise pseudo-queries with graded silver judgments: the source item is grade 2,
     its related items grade 1. Prints queries per style and destination type, their
@@ -463,7 +465,7 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
     llm = None
     if llm_url is not None:
         llm = LlmClient(llm_url, llm_model, api_key=os.environ.get(llm_key_env) or None,
-                        timeout=llm_timeout,
+                        timeout=llm_timeout, retries=llm_retries,
                         examples=tuple(read_queries(llm_examples).values()) if llm_examples
                         else ())
     silver = synthesise(

@@ -1,0 +1,52 @@
+"""Keyword style: 1-4 salient words of an item, the way people type into a search box.
+
+Words are drawn from the item's most salient content words (tf-idf against the whole
+catalogue), with chance proportional to salience, and kept in the order they first
+appear in the item. A draw that reproduces the title's content words is redrawn smaller,
+since copying the title is not what people do.
+"""
+
+from __future__ import annotations
+
+import random
+
+from ..catalogue import Item
+from .corpus import Corpus
+
+POOL = 8  # how many top-salience words a query may draw from
+LENGTHS = (1, 2, 3, 4)
+LENGTH_WEIGHTS = (0.15, 0.4, 0.3, 0.15)  # common practice, no source: most typed queries are 2-3 words
+
+
+def salient_terms(item: Item, corpus: Corpus, rng: random.Random, n: int | None = None
+                  ) -> list[str]:
+    """Draw ``n`` (or a random 1-4) salient content words of ``item``, in item order."""
+    ranked = corpus.salience(item.id)[:POOL]
+    if not ranked:
+        return []
+    if n is None:
+        n = rng.choices(LENGTHS, LENGTH_WEIGHTS)[0]
+    n = min(n, len(ranked))
+    pool = list(ranked)
+    chosen: list[str] = []
+    while len(chosen) < n:
+        total = sum(s for _, s in pool) or 1.0
+        r, acc = rng.random() * total, 0.0
+        for k, (word, s) in enumerate(pool):
+            acc += s
+            if acc >= r:
+                chosen.append(word)
+                del pool[k]
+                break
+        else:
+            chosen.append(pool.pop()[0])
+    order = corpus.words[item.id].title + corpus.words[item.id].body
+    chosen.sort(key=order.index)
+    title = list(dict.fromkeys(corpus.words[item.id].title))
+    if len(chosen) > 1 and chosen == title:
+        chosen.pop(rng.randrange(len(chosen)))
+    return chosen
+
+
+def keyword_query(item: Item, corpus: Corpus, rng: random.Random) -> str:
+    return " ".join(salient_terms(item, corpus, rng))

@@ -1,0 +1,136 @@
+"""LLM style: ask a chat-completions server the user runs (OpenAI-compatible
+``/v1/chat/completions``) for queries, prompted per destination type.
+
+Plain ``urllib``, no client package. Connection failures, time-outs, HTTP 429 and 5xx are
+retried with exponential back-off; anything else, or running out of tries, raises
+``LlmError`` naming the server, so nothing is written. The API key (if any) is sent as a
+bearer token and never appears in messages or ``repr``. ``redact`` is the hook through
+which item text is cleaned before it leaves the process.
+"""
+
+from __future__ import annotations
+
+import json
+import random
+import re
+import socket
+import time
+import urllib.error
+import urllib.request
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+
+from ..catalogue import Item
+from ..errors import TrawlError
+from .question import destination_kind
+
+MAX_ITEM_CHARS = 1200  # enough for the gist; keeps prompts small for local models
+RETRY_STATUS = (429, 500, 502, 503, 504)
+KIND_ASK = {
+    "info": "questions or keyword searches a person would type to find this information",
+    "screen": "searches a person would type to get to this screen of the app, often "
+              "phrased as a task ('where do I ...', 'change my ...')",
+    "form": "searches a person would type when they want to do what this form does "
+            "('how do I ...', 'request ...', 'cancel my ...')",
+}
+LIST_MARK = re.compile(r"^\s*(?:[-*\u2022]|\d+[.)]|q\d*[:.)])\s*", re.IGNORECASE)
+
+
+class LlmError(TrawlError):
+    """The chat-completions server could not be used."""
+
+
+def _identity(text: str) -> str:
+    return text
+
+
+@dataclass(frozen=True)
+class LlmClient:
+    url: str
+    model: str
+    api_key: str | None = field(default=None, repr=False)
+    per_call: int = 3
+    examples: tuple[str, ...] = ()
+    timeout: float = 30.0
+    retries: int = 3
+    backoff: float = 1.0
+    temperature: float = 0.7
+    redact: Callable[[str], str] = _identity
+    sleep: Callable[[float], None] = field(default=time.sleep, repr=False, compare=False)
+
+    @property
+    def endpoint(self) -> str:
+        u = self.url.rstrip("/")
+        if u.endswith("/chat/completions"):
+            return u
+        return u + ("/chat/completions" if u.endswith("/v1") else "/v1/chat/completions")
+
+    def messages(self, item: Item) -> list[dict[str, str]]:
+        kind = destination_kind(item.type)
+        text = self.redact(item.text[:MAX_ITEM_CHARS])
+        system = ("You write realistic search queries for an app's search box. People use "
+                  "their own everyday words, rarely the exact wording of the page, and "
+                  "queries are short. Answer with one query per line and nothing else.")
+        shots = ""
+        if self.examples:
+            shots = "Real queries people typed in this app (for style only):\n" + \
+                    "\n".join(self.redact(e) for e in self.examples) + "\n\n"
+        user = (f"{shots}Destination type: {item.type}\nTitle: {self.redact(item.title)}\n"
+                f"Text: {text}\n\nWrite {self.per_call} different {KIND_ASK[kind]}.")
+        return [{"role": "system", "content": system}, {"role": "user", "content": user}]
+
+    def queries_for(self, item: Item, rng: random.Random) -> list[str]:
+        reply = self.chat(self.messages(item), seed=rng.randrange(2**31))
+        return parse_reply(reply)
+
+    def chat(self, messages: Sequence[dict[str, str]], seed: int = 0) -> str:
+        body = json.dumps({"model": self.model, "messages": list(messages),
+                           "temperature": self.temperature, "seed": seed}).encode()
+        headers = {"Content-Type": "application/json"}
+        if self.api_key:
+            headers["Authorization"] = f"Bearer {self.api_key}"
+        last = ""
+        for attempt in range(self.retries + 1):
+            if attempt:
+                self.sleep(self.backoff * 2 ** (attempt - 1))
+            req = urllib.request.Request(self.endpoint, data=body, headers=headers,
+                                         method="POST")
+            try:
+                with urllib.request.urlopen(req, timeout=self.timeout) as resp:
+                    payload = resp.read()
+            except urllib.error.HTTPError as exc:
+                last = f"HTTP {exc.code} {exc.reason}"
+                if exc.code in RETRY_STATUS:
+                    continue
+                raise LlmError(f"chat server at {self.endpoint} refused the request: {last}; "
+                               "check --llm-model and --llm-url") from None
+            except (urllib.error.URLError, socket.timeout, TimeoutError, ConnectionError) as exc:
+                reason = getattr(exc, "reason", exc)
+                last = ("timed out" if isinstance(reason, (socket.timeout, TimeoutError))
+                        else str(reason))
+                continue
+            return _content(self.endpoint, payload)
+        raise LlmError(f"chat server at {self.endpoint} unreachable after {self.retries + 1} "
+                       f"tries ({last}); start it or fix --llm-url")
+
+
+def _content(endpoint: str, payload: bytes) -> str:
+    try:
+        data = json.loads(payload)
+        content = data["choices"][0]["message"]["content"]
+    except (ValueError, KeyError, IndexError, TypeError):
+        raise LlmError(f"chat server at {endpoint} sent a reply that is not a chat completion "
+                       "(expected choices[0].message.content)") from None
+    if not isinstance(content, str):
+        raise LlmError(f"chat server at {endpoint} sent non-text content")
+    return content
+
+
+def parse_reply(reply: str) -> list[str]:
+    """One query per line; list markers, quotes and blank lines removed."""
+    out = []
+    for line in reply.splitlines():
+        q = LIST_MARK.sub("", line).strip().strip("\"'\u201c\u201d").strip()
+        if q and q not in out:
+            out.append(" ".join(q.split()))
+    return out

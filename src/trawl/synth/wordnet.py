@@ -1,0 +1,167 @@
+"""A small reader for the WordNet 3.0 database files (format: wndb(5), morphy(7WN)).
+
+Reads ``index.*``, ``data.*`` and ``*.exc`` straight from a folder such as Debian's
+``/usr/share/wordnet`` (package ``wordnet-base``), so no extra Python package or corpus
+download is needed. Only what paraphrasing uses is kept: synonyms and hypernyms of the
+most frequent senses of a word.
+"""
+
+from __future__ import annotations
+
+import bisect
+from dataclasses import dataclass
+from pathlib import Path
+
+DEFAULT_DIRS = (Path("/usr/share/wordnet"), Path("/usr/local/share/wordnet"),
+                Path("/usr/share/wordnet-3.0/dict"))
+POS_FILES = {"n": "noun", "v": "verb", "a": "adj", "r": "adv"}
+
+# Detachment rules of morphy(7WN): suffix -> replacement, per part of speech.
+DETACH = {
+    "n": (("s", ""), ("ses", "s"), ("xes", "x"), ("zes", "z"), ("ches", "ch"),
+          ("shes", "sh"), ("men", "man"), ("ies", "y")),
+    "v": (("s", ""), ("ies", "y"), ("es", "e"), ("es", ""), ("ed", "e"), ("ed", ""),
+          ("ing", "e"), ("ing", "")),
+    "a": (("er", ""), ("est", ""), ("er", "e"), ("est", "e")),
+    "r": (),
+}
+
+
+@dataclass(frozen=True)
+class Synset:
+    lemmas: tuple[str, ...]
+    hypernyms: tuple[tuple[str, int], ...]  # (pos, offset)
+
+
+class WordNet:
+    """Senses per lemma (most frequent first) and the synsets they point to.
+
+    The files are read into memory whole but parsed only where looked up: a synset
+    offset is its byte position in ``data.*`` (wndb(5)), and ``index.*`` is sorted, so
+    loading takes a fraction of a second and a query set touches a few thousand lines.
+    """
+
+    def __init__(self, folder: Path) -> None:
+        self.folder = str(folder)
+        self._index: dict[str, tuple[list[bytes], list[bytes]]] = {}
+        self._data: dict[str, bytes] = {}
+        self.exceptions: dict[str, dict[str, str]] = {}
+        for pos, name in POS_FILES.items():
+            lines = [ln for ln in _read(folder / f"index.{name}").split(b"\n")
+                     if ln and not ln.startswith(b" ")]
+            self._index[pos] = ([ln.split(b" ", 1)[0] for ln in lines], lines)
+            self._data[pos] = _read(folder / f"data.{name}")
+            self.exceptions[pos] = _read_exc(folder / f"{name}.exc")
+        self._senses: dict[tuple[str, str], tuple[int, ...]] = {}
+        self._synsets: dict[tuple[str, int], Synset | None] = {}
+
+    def senses(self, lemma: str, pos: str) -> tuple[int, ...]:
+        """Synset offsets of ``lemma`` (WordNet's spelling: spaces as '_'), most frequent first."""
+        key = (lemma, pos)
+        if key not in self._senses:
+            keys, lines = self._index[pos]
+            raw = lemma.replace(" ", "_").encode()
+            k = bisect.bisect_left(keys, raw)
+            self._senses[key] = (_parse_index(lines[k].decode()) if k < len(keys)
+                                 and keys[k] == raw else ())
+        return self._senses[key]
+
+    def synset(self, pos: str, offset: int) -> Synset | None:
+        key = (pos, offset)
+        if key not in self._synsets:
+            data = self._data[pos]
+            end = data.find(b"\n", offset)
+            line = data[offset: end if end >= 0 else len(data)].decode("utf-8", "replace")
+            self._synsets[key] = (_parse_data(line) if line.startswith(f"{offset:08d} ")
+                                  else None)
+        return self._synsets[key]
+
+    def base_forms(self, word: str, pos: str) -> list[str]:
+        """Lemmas ``word`` can be an inflection of (morphy's exception list, then rules)."""
+        out: list[str] = []
+        for cand in (self.exceptions.get(pos, {}).get(word), word):
+            if cand and cand not in out and self.senses(cand, pos):
+                out.append(cand)
+        for suffix, repl in DETACH[pos]:
+            if word.endswith(suffix) and len(word) > len(suffix) + 1:
+                cand = word[: len(word) - len(suffix)] + repl
+                if cand not in out and self.senses(cand, pos):
+                    out.append(cand)
+        return out
+
+    def synonyms(self, word: str, pos: str, senses: int = 1) -> list[str]:
+        """Other lemmas in the ``senses`` most frequent synsets of ``word``."""
+        return self._related(word, pos, senses, hyper=False)
+
+    def hypernyms(self, word: str, pos: str, senses: int = 1) -> list[str]:
+        """Lemmas of the direct hypernyms of the ``senses`` most frequent synsets."""
+        return self._related(word, pos, senses, hyper=True)
+
+    def _related(self, word: str, pos: str, senses: int, hyper: bool) -> list[str]:
+        out: list[str] = []
+        for base in self.base_forms(word, pos)[:1]:
+            for off in self.senses(base, pos)[:senses]:
+                syn = self.synset(pos, off)
+                if syn is None:
+                    continue
+                targets = ([self.synset(pos, o) for p, o in syn.hypernyms if p == pos]
+                           if hyper else [syn])
+                for t in targets:
+                    for lemma in t.lemmas if t else ():
+                        if lemma != base and lemma not in out:
+                            out.append(lemma)
+        return out
+
+
+def find_wordnet(folder: str | Path | None = None) -> Path | None:
+    """The first folder holding WordNet's ``index.noun`` and ``data.noun``, or None."""
+    for d in [Path(folder)] if folder else DEFAULT_DIRS:
+        if (d / "index.noun").is_file() and (d / "data.noun").is_file():
+            return d
+    return None
+
+
+def load_wordnet(folder: str | Path | None = None) -> WordNet | None:
+    """Load WordNet from ``folder`` (or the usual places); None when it is not installed."""
+    d = find_wordnet(folder)
+    return None if d is None else WordNet(d)
+
+
+def _read(path: Path) -> bytes:
+    return path.read_bytes() if path.is_file() else b""
+
+
+def _parse_index(line: str) -> tuple[int, ...]:
+    # lemma pos synset_cnt p_cnt [ptr_symbol...] sense_cnt tagsense_cnt offset...
+    f = line.split()
+    n_syn, n_ptr = int(f[2]), int(f[3])
+    return tuple(int(o) for o in f[4 + n_ptr + 2:][:n_syn])
+
+
+def _parse_data(line: str) -> Synset:
+    # offset lex_filenum ss_type w_cnt(hex) [word lex_id]... p_cnt [sym offset pos src/tgt]...
+    f = line.split(" | ", 1)[0].split()
+    n_words = int(f[3], 16)
+    lemmas = tuple(_lemma(f[4 + 2 * k]) for k in range(n_words))
+    at = 4 + 2 * n_words
+    hyper = []
+    for k in range(int(f[at])):
+        sym, off, p = f[at + 1 + 4 * k: at + 4 + 4 * k]
+        if sym in ("@", "@i"):
+            hyper.append(("a" if p == "s" else p, int(off)))
+    return Synset(lemmas, tuple(hyper))
+
+
+def _lemma(raw: str) -> str:
+    # adjective markers such as "(a)" and "(p)" follow the word; underscores join words
+    word = raw.split("(", 1)[0]
+    return word.replace("_", " ").lower()
+
+
+def _read_exc(path: Path) -> dict[str, str]:
+    out: dict[str, str] = {}
+    for line in _read(path).decode("utf-8", "replace").split("\n"):
+        f = line.split()
+        if len(f) >= 2:
+            out.setdefault(f[0], f[1])
+    return out

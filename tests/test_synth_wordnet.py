@@ -1,0 +1,56 @@
+"""The WordNet reader: a hand-made database in wndb(5) format, and the real WordNet 3.0."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from trawl.synth.wordnet import find_wordnet, load_wordnet
+
+
+def _fake_wordnet(folder: Path) -> Path:
+    """Two noun synsets: {coach, bus} whose hypernym is {vehicle}; offsets are byte positions."""
+    header = "  1 This is a licence header line, as in the real files.\n"
+    vehicle = "{off:08d} 06 n 01 vehicle 0 000 | a conveyance\n"
+    bus = "{off:08d} 06 n 02 bus 0 coach 0 001 @ {hyp:08d} n 0000 | a large vehicle\n"
+    off_vehicle = len(header)
+    line_vehicle = vehicle.format(off=off_vehicle)
+    off_bus = off_vehicle + len(line_vehicle)
+    (folder / "data.noun").write_text(header + line_vehicle +
+                                      bus.format(off=off_bus, hyp=off_vehicle))
+    (folder / "index.noun").write_text(
+        header + f"bus n 1 1 @ 1 0 {off_bus:08d}\ncoach n 1 1 @ 1 0 {off_bus:08d}\n"
+        f"vehicle n 1 0 1 0 {off_vehicle:08d}\n")
+    (folder / "noun.exc").write_text("busses bus\n")
+    return folder
+
+
+def test_reader_on_a_hand_made_database(tmp_path):
+    wn = load_wordnet(_fake_wordnet(tmp_path))
+    assert wn is not None
+    assert wn.base_forms("buses", "n") == ["bus"]  # morphy rule -ses -> -s
+    assert wn.base_forms("busses", "n") == ["bus"]  # exception list
+    assert wn.synonyms("coaches", "n") == ["bus"]
+    assert wn.hypernyms("bus", "n") == ["vehicle"]
+    assert wn.synonyms("tram", "n") == [] and wn.synonyms("bus", "v") == []
+
+
+def test_missing_wordnet_is_none(tmp_path):
+    assert find_wordnet(tmp_path) is None
+    assert load_wordnet(tmp_path) is None
+
+
+REAL = find_wordnet()
+
+
+@pytest.mark.skipif(REAL is None, reason="WordNet 3.0 not installed (Debian wordnet-base)")
+def test_real_wordnet_first_senses():
+    wn = load_wordnet()
+    # WordNet 3.0 data.noun, synset 02958343 ("car, auto, automobile, machine, motorcar"),
+    # the first sense of "car" in index.noun; its hypernym is 03791235 "motor vehicle".
+    assert wn.synonyms("cars", "n") == ["auto", "automobile", "machine", "motorcar"]
+    assert wn.hypernyms("car", "n") == ["motor vehicle", "automotive vehicle"]
+    # noun.exc lists "geese goose"; verb "cancel" first sense: call off, scratch, scrub
+    assert wn.base_forms("geese", "n") == ["goose"]
+    assert wn.synonyms("cancelled", "v")[:3] == ["call off", "scratch", "scrub"]
