@@ -12,7 +12,9 @@ import hashlib
 import io
 import json
 import math
+import re
 import string
+import sys
 from collections import Counter
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -29,6 +31,8 @@ FORMATS = {".jsonl": "jsonl", ".ndjson": "jsonl", ".csv": "csv", ".parquet": "pa
            ".pq": "parquet"}
 DEFAULT_TEMPLATE = "{title}\n{text}"
 LIST_SEPARATOR = "|"  # CSV cells for related/tags: "a|b|c" or a JSON array
+CSV_FIELD_LIMIT = 2**31 - 1  # the csv module's 128 KiB default rejects long texts
+_SURROGATE = re.compile("[\ud800-\udfff]")
 
 
 @dataclass(frozen=True)
@@ -148,14 +152,23 @@ def load_catalogue(path: str | Path, template: str | None = None) -> Catalogue:
     if fmt is None:
         raise CatalogueError(path, f"unknown catalogue format {path.suffix or '(none)'!r}; "
                              "use .jsonl, .csv or .parquet")
-    if not path.exists():
-        raise CatalogueError(path, "catalogue file not found")
-    if path.is_dir():
+    try:
+        is_dir = path.is_dir()
+        if not is_dir:
+            path.stat()
+    except FileNotFoundError:
+        raise CatalogueError(path, "catalogue file not found") from None
+    except OSError as exc:  # e.g. a name too long, a loop of links
+        raise CatalogueError(path, f"cannot read catalogue: {exc.strerror}") from None
+    if is_dir:
         raise CatalogueError(path, "catalogue is a folder, expected a file")
     if fmt == "parquet":
         records = _parquet_records(path)
     else:
-        data = path.read_bytes()
+        try:
+            data = path.read_bytes()
+        except OSError as exc:
+            raise CatalogueError(path, f"cannot read catalogue: {exc.strerror}") from None
         if not data.strip():
             raise CatalogueError(path, "catalogue is empty; expected one item per "
                                  + ("line" if fmt == "jsonl" else "row after the header"))
@@ -174,16 +187,33 @@ def _jsonl_records(path: Path, text: str) -> Iterable[tuple[int, dict]]:
     for n, line in enumerate(text.split("\n"), start=1):
         if not line.strip():
             continue
-        try:
-            obj = json.loads(line)
-        except json.JSONDecodeError as exc:
-            raise CatalogueError(path, f"malformed JSON: {exc.msg} (column {exc.colno})",
-                                 line=n) from None
-        except RecursionError:
-            raise CatalogueError(path, "malformed JSON: nested too deeply", line=n) from None
+        obj = _json_loads(path, n, line, "malformed JSON")
         if not isinstance(obj, dict):
             raise CatalogueError(path, f"expected a JSON object, got {_kind(obj)}", line=n)
+        if "\\u" in line:  # only escapes can smuggle in half a UTF-16 pair
+            for key, value in obj.items():
+                bad = _SURROGATE.search(json.dumps([key, value], ensure_ascii=False))
+                if bad:
+                    raise CatalogueError(
+                        path, f"contains an unpaired surrogate escape (\\u{ord(bad.group()):x});"
+                        " it is not text; re-export the file as UTF-8", line=n,
+                        field=key if key.isprintable() else repr(key))
         yield n, obj
+
+
+def _json_loads(path: Path, n: int, text: str, what: str, field: str | None = None) -> Any:
+    """``json.loads`` whose every failure is a located CatalogueError."""
+    try:
+        return json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise CatalogueError(path, f"{what}: {exc.msg} (column {exc.colno})", line=n,
+                             field=field) from None
+    except RecursionError:
+        raise CatalogueError(path, f"{what}: nested too deeply", line=n, field=field) from None
+    except ValueError:  # an integer longer than Python's conversion limit
+        raise CatalogueError(path, f"{what}: a number has more than "
+                             f"{sys.get_int_max_str_digits()} digits; write long ids as strings",
+                             line=n, field=field) from None
 
 
 def _csv_records(path: Path, text: str) -> Iterable[tuple[int, dict]]:
@@ -191,6 +221,7 @@ def _csv_records(path: Path, text: str) -> Iterable[tuple[int, dict]]:
         line = text[: text.index("\x00")].count("\n") + 1
         raise CatalogueError(path, "NUL byte in CSV data; the file is binary or corrupt",
                              line=line)
+    csv.field_size_limit(max(csv.field_size_limit(), CSV_FIELD_LIMIT))
     reader = csv.reader(io.StringIO(text, newline=""), strict=True)
     try:
         header = next(reader)
@@ -220,7 +251,8 @@ def _csv_records(path: Path, text: str) -> Iterable[tuple[int, dict]]:
         if len(row) != len(header):
             raise CatalogueError(path, f"expected {len(header)} cells as in the header, "
                                  f"got {len(row)}", line=line)
-        rec = {h: v for h, v in zip(header, row) if v != ""}
+        # an empty optional cell is an absent field; an empty required one is "empty"
+        rec = {h: v for h, v in zip(header, row) if v != "" or h in REQUIRED}
         for key in ("related", "tags"):
             if key in rec:
                 rec[key] = _split_cell(path, line, key, rec[key])
@@ -230,11 +262,7 @@ def _csv_records(path: Path, text: str) -> Iterable[tuple[int, dict]]:
 def _split_cell(path: Path, line: int, key: str, cell: str) -> list[str] | Any:
     cell = cell.strip()
     if cell.startswith("["):
-        try:
-            return json.loads(cell)
-        except json.JSONDecodeError as exc:
-            raise CatalogueError(path, f"malformed JSON list: {exc.msg}", line=line,
-                                 field=key) from None
+        return _json_loads(path, line, cell, "malformed JSON list", field=key)
     return [p.strip() for p in cell.split(LIST_SEPARATOR) if p.strip()]
 
 
@@ -244,15 +272,20 @@ def _parquet_records(path: Path) -> Iterable[tuple[int, dict]]:
 
     try:
         table = pq.read_table(path)
-    except (pa.ArrowException, OSError) as exc:
-        raise CatalogueError(path, f"cannot read Parquet file: {exc}") from None
+        columns = table.column_names
+    except (pa.ArrowException, OSError, ValueError) as exc:  # ValueError: names not UTF-8
+        raise CatalogueError(path, f"cannot read Parquet file: {_one_line(exc)}") from None
     if table.num_rows == 0:
         raise CatalogueError(path, "catalogue is empty; the Parquet file has no rows")
     for col in REQUIRED:
-        if col not in table.column_names:
+        if col not in columns:
             raise CatalogueError(path, f"missing column {col!r}; columns must include "
                                  f"{', '.join(REQUIRED)}", field="header")
-    for n, rec in enumerate(table.to_pylist(), start=1):
+    try:
+        rows = table.to_pylist()
+    except (pa.ArrowException, ValueError) as exc:  # e.g. invalid UTF-8, dates out of range
+        raise CatalogueError(path, f"cannot read Parquet file: {_one_line(exc)}") from None
+    for n, rec in enumerate(rows, start=1):
         yield n, {k: v for k, v in rec.items() if v is not None
                   and not (isinstance(v, float) and math.isnan(v))}
 
@@ -347,6 +380,11 @@ def _str_list(path: Path, n: int, rec: dict, key: str) -> tuple[str, ...]:
         if x and x not in out:
             out.append(x)
     return tuple(out)
+
+
+def _one_line(exc: BaseException) -> str:
+    """Library messages can span lines; ours are one line."""
+    return " ".join(str(exc).split())
 
 
 def _kind(v: Any) -> str:

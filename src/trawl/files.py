@@ -64,8 +64,11 @@ def decode_utf8(path: str | Path, data: bytes) -> str:
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        line = data[: exc.start].count(b"\n") + 1
-        col = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
+        before = data[: exc.start].replace(b"\r\n", b"\n").replace(b"\r", b"\n")
+        line = before.count(b"\n") + 1
+        col = len(before) - (before.rfind(b"\n") + 1) + 1
+        if line == 1 and data.startswith(b"\xef\xbb\xbf"):
+            col -= 3  # the BOM is not part of the text
         raise InputError(
             path,
             f"not valid UTF-8 (byte 0x{data[exc.start]:02x} at column {col}); "

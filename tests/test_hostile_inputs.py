@@ -1,0 +1,541 @@
+"""Hostile inputs: every reader either loads a file or raises a one-line, located TrawlError.
+
+Users feed trawl whatever their content system exports. Property tests (hypothesis) throw
+byte-level mutations of plausible files at the catalogue (JSONL, CSV, Parquet), queries,
+qrels and run readers and at `trawl check`; example tests pin each hostile input class
+by name: BOMs, CRLF and lone CR, tabs inside fields, NUL bytes, invalid UTF-8, 1 MB
+fields, empty lines, emoji and right-to-left text, numeric-looking ids.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import re
+from pathlib import Path
+
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from trawl.catalogue import Catalogue, load_catalogue
+from trawl.errors import TrawlError
+from trawl.judgments import read_qrels, write_qrels
+from trawl.queries import read_queries, write_queries
+from trawl.runs import make_run, read_run, write_run
+
+from .conftest import invoke
+
+SETTINGS = settings(max_examples=80, deadline=None,
+                    suppress_health_check=[HealthCheck.function_scoped_fixture,
+                                           HealthCheck.too_slow])
+BOM = "\ufeff"
+MB = 1 << 20
+
+# --- building blocks -------------------------------------------------------------------------
+
+HOSTILE_TEXT = [
+    BOM, "\r\n", "\r", "\n", "\t", "\x00", " ", "\u00a0", "\u2028", "\x1c", "\x85",
+    "\u202e",                      # right-to-left override
+    "😀", "👩‍👩‍👧",                    # emoji, including a joined sequence
+    "مرحبا بالعالم", "שלום עולם",     # right-to-left scripts
+    "007", "٠٠٧", '"', "'", ",", "|", "{", "}", "[", "]", ":", "\\", "\\u0000",
+    "\\ud800", "\\udc00", "\\ud83d\\ude00", "=SUM(A1)", "@cmd", "null", "true", "NaN",
+    "Infinity", "1e999", "-0", "Q0", "0", "1", "id", "type", "title", "text", "related",
+    "tags",
+]
+HOSTILE_BYTES = [b"\xff", b"\xc3", b"\xed\xa0\x80", b"\xef\xbb\xbf", b"\xe2\x82", b"\x00",
+                 b"\xc0\x80"]
+fragment = st.one_of(
+    st.sampled_from(HOSTILE_TEXT).map(str.encode),
+    st.sampled_from(HOSTILE_BYTES),
+    st.text(max_size=8).map(str.encode),
+    st.binary(max_size=6),
+)
+token = st.one_of(st.sampled_from(["007", "q1", "d1", "d2", "0", "1", "2", "-1", "1.5", "nan",
+                                   "inf", "Q0", "run", "😀", "שלום"]),
+                  st.text(max_size=6))
+json_value = st.recursive(
+    st.none() | st.booleans() | st.integers() | st.floats() | st.text(max_size=12),
+    lambda inner: st.lists(inner, max_size=3) | st.dictionaries(st.text(max_size=5), inner,
+                                                                max_size=3),
+    max_leaves=6)
+id_pool = st.sampled_from(["a", "b", "007", "7", "x y", "😀", "", "مرحبا", " a", "a\tb"])
+record = st.fixed_dictionaries({}, optional={
+    "id": id_pool | json_value, "type": st.sampled_from(["faq", "form", " ", ""]) | json_value,
+    "title": st.text(max_size=20) | json_value, "text": st.text(max_size=20) | json_value,
+    "related": st.lists(id_pool, max_size=2) | json_value,
+    "tags": st.lists(st.text(max_size=4), max_size=2) | json_value, "extra": json_value})
+
+
+@st.composite
+def jsonl_line(draw) -> str:
+    if draw(st.integers(0, 4)) == 0:
+        return "".join(draw(st.lists(st.sampled_from(HOSTILE_TEXT), max_size=6)))
+    return json.dumps(draw(record), ensure_ascii=draw(st.booleans()))
+
+
+@st.composite
+def csv_line(draw) -> str:
+    cells = draw(st.lists(st.one_of(id_pool, token, st.sampled_from(HOSTILE_TEXT)),
+                          min_size=2, max_size=5))
+    out = io.StringIO()
+    csv.writer(out, lineterminator="").writerow(cells)
+    return out.getvalue()
+
+
+def fields_line(n: int):
+    return st.lists(token, min_size=n - 1, max_size=n + 1).map(" ".join)
+
+
+@st.composite
+def mangled(draw, line) -> bytes:
+    """A plausible file (lines from ``line``) with random line ends, maybe a BOM, and a
+    few hostile fragments spliced in at random byte offsets."""
+    lines = draw(st.lists(line | st.just(""), max_size=6))
+    end = draw(st.sampled_from(["\n", "\r\n", "\r"]))
+    raw = (end.join(lines) + draw(st.sampled_from(["", end]))).encode()
+    if draw(st.booleans()):
+        raw = BOM.encode() + raw
+    for _ in range(draw(st.integers(0, 3))):
+        at = draw(st.integers(0, len(raw)))
+        raw = raw[:at] + draw(fragment) + raw[at:]
+    return raw
+
+
+def loads_or_fails_cleanly(load, path: Path, raw: bytes):
+    """Load ``path``; a TrawlError must be one line, start with the path, and any line
+    number it gives must exist. Any other exception escapes and fails the test."""
+    try:
+        return load(path)
+    except TrawlError as exc:
+        msg = str(exc)
+        assert len(msg.splitlines()) == 1, msg
+        assert msg.startswith(f"{path}:"), msg
+        m = re.match(re.escape(str(path)) + r":(\d+): ", msg)
+        if m:
+            n_lines = raw.replace(b"\r\n", b"\n").replace(b"\r", b"\n").count(b"\n") + 1
+            assert 1 <= int(m.group(1)) <= n_lines, msg
+        return None
+
+
+def assert_sound(cat: Catalogue) -> None:
+    """A loaded catalogue is usable downstream: string ids, unique, TREC-safe, resolvable
+    related ids, a fingerprint and templated texts that encode as UTF-8."""
+    assert all(isinstance(i, str) and i and not any(c.isspace() for c in i) for i in cat.ids)
+    assert len(set(cat.ids)) == len(cat.ids)
+    assert all(r in cat.by_id for it in cat.items for r in it.related)
+    assert re.fullmatch(r"[0-9a-f]{16}", cat.fingerprint)
+    "\n".join(cat.texts()).encode("utf-8")
+
+
+@pytest.fixture(scope="module")
+def scratch(tmp_path_factory) -> Path:
+    return tmp_path_factory.mktemp("hostile")
+
+
+# --- properties: mangled files never crash a reader -----------------------------------------
+
+@SETTINGS
+@given(raw=mangled(jsonl_line()))
+def test_jsonl_catalogue_loads_or_fails_cleanly(scratch, raw):
+    path = scratch / "c.jsonl"
+    path.write_bytes(raw)
+    cat = loads_or_fails_cleanly(load_catalogue, path, raw)
+    if cat is not None:
+        assert_sound(cat)
+
+
+@SETTINGS
+@given(header=st.lists(st.sampled_from(["id", "type", "title", "text", "related", "tags", "x",
+                                        " id", "", BOM + "id"]), min_size=3, max_size=6),
+       body=mangled(csv_line()))
+def test_csv_catalogue_loads_or_fails_cleanly(scratch, header, body):
+    raw = (",".join(header) + "\n").encode() + body
+    path = scratch / "c.csv"
+    path.write_bytes(raw)
+    cat = loads_or_fails_cleanly(load_catalogue, path, raw)
+    if cat is not None:
+        assert_sound(cat)
+
+
+COLUMN = {
+    "string": st.lists(st.one_of(id_pool, st.text(max_size=10), st.none()), min_size=1,
+                       max_size=4).map(lambda v: pa.array(v, pa.string())),
+    "int": st.lists(st.integers(-2**63, 2**63 - 1) | st.none(), min_size=1, max_size=4)
+           .map(lambda v: pa.array(v, pa.int64())),
+    "float": st.lists(st.floats() | st.none(), min_size=1, max_size=4)
+             .map(lambda v: pa.array(v, pa.float64())),
+    "bool": st.lists(st.booleans(), min_size=1, max_size=4).map(pa.array),
+    "binary": st.lists(st.binary(max_size=5), min_size=1, max_size=4)
+              .map(lambda v: pa.array(v, pa.binary())),
+    "list": st.lists(st.lists(id_pool, max_size=2) | st.none(), min_size=1, max_size=4)
+            .map(lambda v: pa.array(v, pa.list_(pa.string()))),
+    "struct": st.lists(st.fixed_dictionaries({"a": st.integers(0, 9)}), min_size=1,
+                       max_size=4).map(pa.array),
+    "null": st.integers(1, 4).map(lambda n: pa.nulls(n)),
+}
+
+
+@st.composite
+def parquet_table(draw) -> pa.Table:
+    names = draw(st.lists(st.sampled_from(["id", "type", "title", "text", "related", "tags",
+                                           "meta"]), min_size=1, max_size=7, unique=True))
+    cols = [draw(COLUMN[draw(st.sampled_from(sorted(COLUMN)))]) for _ in names]
+    n = min(len(c) for c in cols)
+    return pa.table([c.slice(0, n) for c in cols], names=names)
+
+
+@settings(SETTINGS, max_examples=60)
+@given(table=parquet_table(), cut=st.none() | st.integers(0, 2000), junk=st.binary(max_size=8))
+def test_parquet_catalogue_loads_or_fails_cleanly(scratch, table, cut, junk):
+    path = scratch / "c.parquet"
+    pq.write_table(table, path)
+    if cut is not None:  # a truncated or corrupted download
+        raw = path.read_bytes()
+        path.write_bytes(raw[:cut] + junk + raw[cut + len(junk):])
+    cat = loads_or_fails_cleanly(load_catalogue, path, b"")
+    if cat is not None:
+        assert_sound(cat)
+
+
+@SETTINGS
+@given(raw=mangled(st.tuples(token, st.text(max_size=15)).map("\t".join) | token))
+def test_queries_load_or_fail_cleanly(scratch, raw):
+    path = scratch / "q.tsv"
+    path.write_bytes(raw)
+    queries = loads_or_fails_cleanly(read_queries, path, raw)
+    if queries is not None:
+        assert queries and all(q and not any(c.isspace() for c in q) for q in queries)
+        assert all(t == " ".join(t.split()) and t for t in queries.values())
+
+
+@SETTINGS
+@given(raw=mangled(fields_line(4)))
+def test_qrels_load_or_fail_cleanly(scratch, raw):
+    path = scratch / "j.qrels"
+    path.write_bytes(raw)
+    qrels = loads_or_fails_cleanly(read_qrels, path, raw)
+    if qrels is not None:
+        assert all(isinstance(g, int) for items in qrels.values() for g in items.values())
+        assert all("\x00" not in i for items in qrels.values() for i in items)
+
+
+@SETTINGS
+@given(raw=mangled(fields_line(6)))
+def test_runs_load_or_fail_cleanly(scratch, raw):
+    path = scratch / "r.run"
+    path.write_bytes(raw)
+    run = loads_or_fails_cleanly(read_run, path, raw)
+    if run is not None:
+        for pairs in run.results.values():
+            scores = [s for _, s in pairs]
+            assert scores == sorted(scores, reverse=True)
+            assert all(s == s for s in scores)  # no NaN
+            assert all("\x00" not in i for i, _ in pairs)
+
+
+@settings(SETTINGS, max_examples=40)
+@given(raw=mangled(jsonl_line()))
+def test_check_command_exits_0_or_2_with_one_line_error(scratch, raw):
+    path = scratch / "cli.jsonl"
+    path.write_bytes(raw)
+    result = invoke(["check", path, "--lengths", "words"])  # a crash would raise here
+    assert result.exit_code in (0, 2)
+    if result.exit_code == 2:
+        assert result.stdout == ""
+        assert re.fullmatch(rf"error: {re.escape(str(path))}:[^\n]*\n", result.stderr)
+        assert "Traceback" not in result.stderr
+
+
+# --- properties: the error names the right line --------------------------------------------
+
+plain = st.text(st.characters(blacklist_categories=("Cs", "Cc", "Zl", "Zp")), min_size=1,
+                max_size=12).filter(lambda s: s.strip() and not any(c.isspace() for c in s)
+                                    and s[0] != BOM)
+
+
+@SETTINGS
+@given(n_lines=st.integers(1, 6), data=st.data())
+def test_invalid_utf8_is_reported_on_its_line(scratch, n_lines, data):
+    texts = [data.draw(plain) for _ in range(n_lines)]
+    bad = data.draw(st.integers(0, n_lines - 1))
+    end = data.draw(st.sampled_from([b"\n", b"\r\n", b"\r"]))
+    lines = [t.encode() for t in texts]
+    lines[bad] = lines[bad] + data.draw(st.sampled_from([b"\xff", b"\xc3(", b"\xed\xa0\x80"]))
+    path = scratch / "q.tsv"
+    path.write_bytes(end.join(lines) + end)
+    with pytest.raises(TrawlError) as exc:
+        read_queries(path)
+    assert str(exc.value).startswith(f"{path}:{bad + 1}: not valid UTF-8"), str(exc.value)
+
+
+BROKEN = {
+    "jsonl": (lambda i: json.dumps({"id": f"i{i}", "type": "faq", "title": f"t{i}"}),
+              ['{"id": "z", "type": "faq"', '{"id": "z", "type": "faq", "title": 1}', "[]",
+               '{"id": "z", "type": "faq", "title": "\\ud800"}', '{"id": ' + "1" * 5000 + "}",
+               "[" * 100_000]),
+    "tsv": (lambda i: f"q{i}\tquery {i}", ["no tab here", "\tempty id", "q 1\ttext", "q\x00\tx"]),
+    "qrels": (lambda i: f"q{i} 0 d{i} 1", ["q 0 d", "q 0 d one", "q 0 d 1 extra",
+                                            "q 0 d\x00 1", "q 0 d " + "9" * 5000]),
+    "run": (lambda i: f"q{i} Q0 d{i} 1 0.5 r", ["q Q0 d 1 0.5", "q Q0 d one 0.5 r",
+                                                 "q Q0 d 1 NaN r", "q Q0 d 1 x r",
+                                                 "q Q0 d\x00 1 0.5 r"]),
+}
+READERS = {"jsonl": load_catalogue, "tsv": read_queries, "qrels": read_qrels, "run": read_run}
+
+
+@pytest.mark.parametrize("kind", sorted(BROKEN))
+@SETTINGS
+@given(data=st.data())
+def test_first_bad_line_is_named(scratch, kind, data):
+    good, broken = BROKEN[kind]
+    n = data.draw(st.integers(1, 5))
+    lines = [good(i) for i in range(n)]
+    bad = data.draw(st.integers(0, n - 1))
+    lines[bad] = data.draw(st.sampled_from(broken))
+    for _ in range(data.draw(st.integers(0, 3))):  # blank lines still count
+        lines.insert(data.draw(st.integers(0, len(lines))), data.draw(st.sampled_from(["", " "])))
+    end = data.draw(st.sampled_from(["\n", "\r\n", "\r"]))
+    path = scratch / f"f.{kind}"
+    path.write_bytes((BOM if data.draw(st.booleans()) else "").encode()
+                     + end.join(lines).encode() + end.encode())
+    line_no = lines.index(next(ln for ln in lines if ln in broken)) + 1
+    with pytest.raises(TrawlError) as exc:
+        READERS[kind](path)
+    assert str(exc.value).startswith(f"{path}:{line_no}: "), str(exc.value)
+    assert len(str(exc.value).splitlines()) == 1
+
+
+# --- properties: what is written reads back exactly ----------------------------------------
+
+field_text = st.text(st.characters(blacklist_categories=("Cs",), blacklist_characters="\r\x00"),
+                     max_size=30)
+
+
+@SETTINGS
+@given(rows=st.lists(st.tuples(plain, field_text, field_text), min_size=1, max_size=5,
+                     unique_by=lambda r: r[0]),
+       fmt=st.sampled_from(["jsonl", "csv", "parquet"]))
+def test_catalogue_text_survives_every_format(scratch, rows, fmt):
+    """Tabs, quotes, commas, newlines, emoji and RTL text inside fields come back as written
+    (stripped of surrounding white space), in every format."""
+    items = [{"id": i, "type": "faq", "title": t, "text": x} for i, t, x in rows]
+    path = scratch / f"rt.{fmt}"
+    if fmt == "jsonl":
+        path.write_text("".join(json.dumps(r, ensure_ascii=False) + "\n" for r in items))
+    elif fmt == "csv":
+        with path.open("w", newline="", encoding="utf-8") as fh:
+            w = csv.DictWriter(fh, ["id", "type", "title", "text"], lineterminator="\n")
+            w.writeheader()
+            w.writerows(items)
+    else:
+        pq.write_table(pa.Table.from_pylist(items), path)
+    cat = load_catalogue(path)
+    assert cat.ids == [r[0] for r in rows]
+    assert [(it.title, it.text) for it in cat.items] == [(t.strip(), x.strip())
+                                                         for _, t, x in rows]
+
+
+@SETTINGS
+@given(queries=st.dictionaries(plain, field_text.filter(str.strip), min_size=1, max_size=6))
+def test_queries_round_trip(scratch, queries):
+    path = scratch / "rt.tsv"
+    write_queries(path, queries)
+    assert read_queries(path) == {q: " ".join(t.split()) for q, t in queries.items()}
+
+
+@SETTINGS
+@given(qrels=st.dictionaries(plain, st.dictionaries(plain, st.integers(-3, 10**12), min_size=1,
+                                                    max_size=4), min_size=1, max_size=4))
+def test_qrels_round_trip(scratch, qrels):
+    path = scratch / "rt.qrels"
+    write_qrels(path, qrels)
+    assert read_qrels(path) == qrels
+
+
+@SETTINGS
+@given(results=st.dictionaries(plain, st.dictionaries(
+    plain, st.floats(allow_nan=False), min_size=1, max_size=4), min_size=1, max_size=4))
+def test_runs_round_trip_exact_scores(scratch, results):
+    path = scratch / "rt.run"
+    run = make_run("tag", {q: d.items() for q, d in results.items()})
+    write_run(path, run)
+    back = read_run(path)
+    assert back.name == "tag"
+    assert dict(back.results) == dict(run.results)  # float repr round-trips exactly
+
+
+# --- one example per hostile class ---------------------------------------------------------
+
+NUMERIC_LOOKING = ["007", "0", "00", "1e3", "1.50", "-0", "+7", "0x1F", "٠٠٧", "1_000", "inf",
+                   "NaN", "3.0"]
+
+
+@pytest.mark.parametrize("fmt", ["jsonl", "csv", "parquet"])
+def test_numeric_looking_ids_stay_text_in_every_catalogue_format(tmp_path, fmt):
+    items = [{"id": i, "type": "faq", "title": f"item {i}", "related": "007"}
+             for i in NUMERIC_LOOKING]
+    path = tmp_path / f"c.{fmt}"
+    if fmt == "jsonl":
+        path.write_text("".join(json.dumps(r) + "\n" for r in items))
+    elif fmt == "csv":
+        path.write_text("id,type,title,related\n"
+                        + "".join(f"{r['id']},faq,{r['title']},007\n" for r in items))
+    else:
+        pq.write_table(pa.Table.from_pylist(items), path)
+    cat = load_catalogue(path)
+    assert cat.ids == NUMERIC_LOOKING
+    assert cat.by_id["1e3"].related == ("007",)
+
+
+def test_numeric_looking_ids_stay_text_in_queries_qrels_and_runs(tmp_path):
+    ids = NUMERIC_LOOKING
+    (tmp_path / "q.tsv").write_text("".join(f"{i}\tquery {i}\n" for i in ids))
+    (tmp_path / "j.qrels").write_text("".join(f"{i} 0 {i} 1\n" for i in ids))
+    (tmp_path / "r.run").write_text("".join(f"{i} Q0 {i} 1 1.0 r\n" for i in ids))
+    assert list(read_queries(tmp_path / "q.tsv")) == ids
+    assert list(read_qrels(tmp_path / "j.qrels")) == ids
+    assert all(read_qrels(tmp_path / "j.qrels")[i] == {i: 1} for i in ids)
+    assert read_run(tmp_path / "r.run").results["007"] == (("007", 1.0),)
+
+
+def test_bom_crlf_and_blank_lines_change_nothing(tmp_path):
+    rows = [{"id": "a", "type": "faq", "title": "Lost property", "text": "Call the depot."},
+            {"id": "b", "type": "form", "title": "Refund", "text": "Ask for a refund."}]
+    plain_text = "".join(json.dumps(r) + "\n" for r in rows)
+    hostile = BOM + "\r\n\r\n" + plain_text.replace("\n", "\r\n\r\n   \r\n")
+    (tmp_path / "a.jsonl").write_text(plain_text)
+    (tmp_path / "b.jsonl").write_bytes(hostile.encode())
+    a, b = load_catalogue(tmp_path / "a.jsonl"), load_catalogue(tmp_path / "b.jsonl")
+    assert a.items == b.items and a.fingerprint == b.fingerprint
+    assert [it.line for it in b.items] == [3, 6]  # blank lines still count
+    for name, text in [("q.tsv", "q1\tlost wallet\n"), ("j.qrels", "q1 0 a 2\n"),
+                       ("r.run", "q1 Q0 a 1 0.9 r\n")]:
+        (tmp_path / name).write_bytes((BOM + text.replace("\n", "\r\n") + "\r\n").encode())
+    assert read_queries(tmp_path / "q.tsv") == {"q1": "lost wallet"}
+    assert read_qrels(tmp_path / "j.qrels") == {"q1": {"a": 2}}
+    assert read_run(tmp_path / "r.run").results == {"q1": (("a", 0.9),)}
+
+
+def test_tabs_inside_fields(tmp_path):
+    (tmp_path / "c.jsonl").write_text(json.dumps(
+        {"id": "a", "type": "faq", "title": "Fares\tand passes", "text": "col1\tcol2"}) + "\n")
+    (tmp_path / "c.csv").write_text('id,type,title,text\na,faq,"Fares\tand passes",col1\tcol2\n')
+    for name in ("c.jsonl", "c.csv"):
+        item = load_catalogue(tmp_path / name).items[0]
+        assert (item.title, item.text) == ("Fares\tand passes", "col1\tcol2")
+    (tmp_path / "q.tsv").write_text("q1\tfare\tcapping\trules\n")  # later tabs are spaces
+    assert read_queries(tmp_path / "q.tsv") == {"q1": "fare capping rules"}
+
+
+@pytest.mark.parametrize("name,content,message", [
+    ("c.csv", "id,type,title\na,faq,ok\nb,faq,bad\x00\n",
+     "3: NUL byte in CSV data; the file is binary or corrupt"),
+    ("q.tsv", "q1\tok\nq2\tbad\x00\n", "2: NUL byte in line; the file is binary or corrupt"),
+    ("j.qrels", "q1 0 a 1\nq1 0 b\x00 1\n", "2: NUL byte in line; the file is binary or corrupt"),
+    ("r.run", "q1 Q0 a 1 0.5 r\nq1 Q0 b\x00 2 0.4 r\n",
+     "2: NUL byte in line; the file is binary or corrupt"),
+])
+def test_nul_bytes_are_located_errors(tmp_path, name, content, message):
+    path = tmp_path / name
+    path.write_bytes(content.encode())
+    reader = {"c.csv": load_catalogue, "q.tsv": read_queries, "j.qrels": read_qrels,
+              "r.run": read_run}[name]
+    with pytest.raises(TrawlError) as exc:
+        reader(path)
+    assert str(exc.value) == f"{path}:{message}"
+
+
+def test_nul_escaped_inside_json_is_text(tmp_path):
+    # JSON may carry U+0000 escaped; it is text, not a corrupt file.
+    (tmp_path / "c.jsonl").write_text('{"id": "a", "type": "faq", "title": "a\\u0000b"}\n')
+    assert load_catalogue(tmp_path / "c.jsonl").items[0].title == "a\x00b"
+
+
+@pytest.mark.parametrize("raw,line", [(b"q1\tok\rq2\tcaf\xe9\r", 2),
+                                      (b"q1\tok\r\nq2\tok\r\nq3\t\xff\r\n", 3),
+                                      (b"\xef\xbb\xbfq1\t\xc3\n", 1)])
+def test_invalid_utf8_names_the_line_whatever_the_line_ends(tmp_path, raw, line):
+    path = tmp_path / "q.tsv"
+    path.write_bytes(raw)
+    with pytest.raises(TrawlError, match=rf"^{re.escape(str(path))}:{line}: not valid UTF-8"):
+        read_queries(path)
+
+
+def test_lone_surrogate_escape_is_a_located_error(tmp_path):
+    path = tmp_path / "c.jsonl"
+    path.write_text('{"id": "a", "type": "faq", "title": "ok \\ud83d\\ude00"}\n'  # a pair: fine
+                    '{"id": "b", "type": "faq", "title": "bad \\ud800 half"}\n')
+    result = invoke(["check", path, "--lengths", "words"])
+    assert result.exit_code == 2
+    assert result.stderr == (f"error: {path}:2: title: contains an unpaired surrogate escape "
+                             "(\\ud800); it is not text; re-export the file as UTF-8\n")
+
+
+def test_huge_numbers_and_deep_nesting_are_located_errors(tmp_path):
+    path = tmp_path / "c.jsonl"
+    path.write_text('{"id": "a", "type": "faq", "title": "ok"}\n{"id": ' + "1" * 5000 + "}\n")
+    with pytest.raises(TrawlError, match=r":2: malformed JSON: a number has more than \d+ "
+                                         r"digits; write long ids as strings"):
+        load_catalogue(path)
+    path = tmp_path / "c.csv"
+    path.write_text('id,type,title,related\na,faq,ok,"' + "[" * 100_000 + '"\n')
+    with pytest.raises(TrawlError, match=":2: related: malformed JSON list: nested too deeply"):
+        load_catalogue(path)
+
+
+@pytest.mark.parametrize("fmt", ["jsonl", "csv", "parquet"])
+def test_one_megabyte_fields_load_whole(tmp_path, fmt):
+    big = ("Fares and passes 😀 مرحبا " * (MB // 20))[:MB]
+    rows = [{"id": "big", "type": "article", "title": "Long", "text": big},
+            {"id": "small", "type": "faq", "title": "Short", "text": "x"}]
+    path = tmp_path / f"c.{fmt}"
+    if fmt == "jsonl":
+        path.write_text("".join(json.dumps(r, ensure_ascii=False) + "\n" for r in rows))
+    elif fmt == "csv":
+        with path.open("w", newline="", encoding="utf-8") as fh:
+            w = csv.DictWriter(fh, ["id", "type", "title", "text"])
+            w.writeheader()
+            w.writerows(rows)
+    else:
+        pq.write_table(pa.Table.from_pylist(rows), path)
+    cat = load_catalogue(path)
+    assert len(cat.by_id["big"].text) == len(big.strip())
+
+
+def test_one_megabyte_query_and_ids(tmp_path):
+    long_id = "d" * MB
+    (tmp_path / "q.tsv").write_text("q1\t" + "where is my bus " * (MB // 16) + "\n")
+    (tmp_path / "j.qrels").write_text(f"q1 0 {long_id} 1\n")
+    (tmp_path / "r.run").write_text(f"q1 Q0 {long_id} 1 0.5 r\n")
+    assert len(read_queries(tmp_path / "q.tsv")["q1"]) == MB - 1  # trailing space dropped
+    assert read_qrels(tmp_path / "j.qrels") == {"q1": {long_id: 1}}
+    assert read_run(tmp_path / "r.run").results["q1"][0][0] == long_id
+
+
+def test_emoji_and_right_to_left_text_pass_through_check(tmp_path):
+    rows = [{"id": "rtl-1", "type": "faq", "title": "שלום עולם \u202e reversed",
+             "text": "مرحبا بالعالم"},
+            {"id": "emoji-😀", "type": "screen", "title": "Tickets 🎟️ 👩‍👩‍👧", "text": "family pass"}]
+    path = tmp_path / "c.jsonl"
+    path.write_text("".join(json.dumps(r, ensure_ascii=False) + "\n" for r in rows))
+    cat = load_catalogue(path)
+    assert cat.by_id["emoji-😀"].title == "Tickets 🎟️ 👩‍👩‍👧"
+    result = invoke(["check", path, "--json"])  # through the real tokenizer
+    assert result.exit_code == 0
+    assert json.loads(result.stdout)["types"] == {"faq": 1, "screen": 1}
+
+
+def test_unreadable_paths_are_clean_errors(tmp_path):
+    (tmp_path / "dir.jsonl").mkdir()
+    with pytest.raises(TrawlError, match="catalogue is a folder, expected a file$"):
+        load_catalogue(tmp_path / "dir.jsonl")
+    too_long = tmp_path / ("x" * 300 + ".jsonl")  # longer than any file name may be
+    result = invoke(["check", too_long])
+    assert result.exit_code == 2
+    assert result.stderr.startswith(f"error: {too_long}: cannot read catalogue: ")
+    assert len(result.stderr.splitlines()) == 1
