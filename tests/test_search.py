@@ -113,6 +113,7 @@ def test_index_rejects_unknown_encoder_before_reading_anything(files):
                                     "allowed forms: minilm, minilm-int8, static:DIR")
 
 
+@pytest.mark.slow
 def test_minilm_index_json_and_search(files):
     result = invoke(["index", files / "cat.jsonl", "-e", "minilm", "-o", files / "idx",
                      "--json", "-q"])
