@@ -1,0 +1,210 @@
+"""Each run against a baseline: paired differences, intervals, p-values, Holm correction.
+
+For every run other than the baseline, every metric and every group of queries (all
+queries, then each destination type when a catalogue is given) one row holds the mean
+difference (run minus baseline), its paired bootstrap interval, two-sided p-values
+from the paired bootstrap and from a sign-flip randomisation test, the randomisation
+p-value after Holm's correction over every row of the comparison, and an effect size.
+
+The corrected p-value (and so the significance mark) comes from the randomisation
+test because it stays valid with few queries: it is exact when every sign pattern can
+be enumerated, while the bootstrap has no spread to resample from one or two queries
+and then claims certainty it does not have.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Sequence
+from dataclasses import asdict, dataclass
+from typing import Any
+
+import numpy as np
+
+from .catalogue import Catalogue
+from .errors import UsageError
+from .judgments import Qrels
+from .metrics import DEFAULT_METRICS, Metric
+from .progress import progress
+from .runs import Run
+from .scores import TYPE_RULE, ScoreReport, count, score_runs
+from .stats import bootstrap_many, effect_sizes, holm, randomisation_many
+
+FEW_QUERIES = 20  # common practice, no source: below this a per-type test says little
+
+
+@dataclass(frozen=True)
+class ComparisonRow:
+    """One run vs the baseline on one metric over one group (``type=None``: all queries)."""
+
+    run: str
+    baseline: str
+    metric: str
+    type: str | None
+    n: int
+    run_mean: float
+    baseline_mean: float
+    diff: float
+    low: float
+    high: float
+    p_bootstrap: float
+    p_randomisation: float
+    p_corrected: float
+    effect: float
+
+    def as_dict(self) -> dict[str, Any]:
+        return {k: (None if isinstance(v, float) and np.isnan(v) else v)
+                for k, v in asdict(self).items()}
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """All rows of a comparison and how they were computed."""
+
+    baseline: str
+    runs: tuple[str, ...]
+    metrics: tuple[str, ...]
+    queries: int
+    groups: dict[str | None, int]  # group -> number of queries
+    rows: tuple[ComparisonRow, ...]
+    resamples: int
+    seed: int
+    method: str
+    alpha: float
+    warnings: tuple[str, ...]
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "baseline": self.baseline,
+            "runs": list(self.runs),
+            "metrics": list(self.metrics),
+            "queries": self.queries,
+            "groups": [{"type": g, "n": n} for g, n in self.groups.items()],
+            "type_rule": TYPE_RULE if len(self.groups) > 1 else None,
+            "resamples": self.resamples,
+            "seed": self.seed,
+            "interval": self.method,
+            "alpha": self.alpha,
+            "correction": "holm over the p_randomisation of every row",
+            "rows": [r.as_dict() for r in self.rows],
+            "warnings": list(self.warnings),
+        }
+
+
+def pick_baseline(runs: Sequence[Run], baseline: str | Run | None) -> list[Run]:
+    """The runs with the baseline first; a name must be one of the runs' names."""
+    runs = list(runs)
+    if baseline is None:
+        return runs
+    if isinstance(baseline, Run):
+        rest = [r for r in runs if r.name != baseline.name]
+        return [baseline, *rest]
+    for i, r in enumerate(runs):
+        if r.name == baseline:
+            return [r, *runs[:i], *runs[i + 1:]]
+    raise UsageError(f"baseline {baseline!r} is not one of the runs: "
+                     f"{', '.join(r.name for r in runs)}")
+
+
+def compare_runs(qrels: Qrels, runs: Sequence[Run], metrics: Iterable[str | Metric] = DEFAULT_METRICS,
+                 baseline: str | Run | None = None, resamples: int = 10000, seed: int = 0,
+                 method: str = "percentile", catalogue: Catalogue | None = None,
+                 alpha: float = 0.05, quiet: bool = True) -> Comparison:
+    """Compare every run with the baseline (default: the first run)."""
+    ordered = pick_baseline(runs, baseline)
+    if len(ordered) < 2:
+        raise UsageError("comparing needs at least two runs (a baseline and one more)")
+    report = score_runs(qrels, ordered, metrics, catalogue)
+    return compare_scores(report, resamples, seed, method, alpha, quiet)
+
+
+def compare_scores(report: ScoreReport, resamples: int = 10000, seed: int = 0,
+                   method: str = "percentile", alpha: float = 0.05,
+                   quiet: bool = True) -> Comparison:
+    """Compare the runs of a score report with its first run."""
+    runs, metrics = report.runs, report.metrics
+    values = report.values
+    others = range(1, len(runs))
+    groups = report.groups()
+    pending: list[dict[str, Any]] = []
+    warnings = list(report.warnings)
+    with progress(len(groups), "comparing", quiet, unit="group") as bar:
+        for group, rows in groups.items():
+            sub = values[:, rows, :]
+            diffs = np.concatenate([sub[r] - sub[0] for r in others], axis=1)
+            estimates = bootstrap_many(diffs, resamples, seed, method, alpha)
+            p_rand = randomisation_many(diffs, resamples, seed)
+            effects = effect_sizes(diffs)
+            means = sub.mean(axis=1)
+            for j, est in enumerate(estimates):
+                r, m = divmod(j, len(metrics))
+                r += 1
+                pending.append(dict(run=runs[r], baseline=runs[0], metric=metrics[m],
+                                    type=group, n=len(rows), run_mean=float(means[r, m]),
+                                    baseline_mean=float(means[0, m]), diff=est.mean,
+                                    low=est.low, high=est.high, p_bootstrap=est.p_value,
+                                    p_randomisation=float(p_rand[j]), effect=effects[j]))
+            if group is not None and len(rows) < FEW_QUERIES:
+                warnings.append(f"type {group!r} has {count(len(rows), 'query', 'queries')} "
+                                f"(fewer than {FEW_QUERIES}): its differences and p-values "
+                                "say little")
+            bar.update()
+    corrected = holm([p["p_randomisation"] for p in pending])
+    rows_out = tuple(ComparisonRow(p_corrected=float(c), **p) for p, c in zip(pending, corrected))
+    return Comparison(runs[0], runs, metrics, len(report.qids),
+                      {g: len(r) for g, r in groups.items()}, rows_out, resamples, seed,
+                      method, alpha, tuple(warnings))
+
+
+CSV_COLUMNS = ("run", "baseline", "metric", "type", "n", "run_mean", "baseline_mean", "diff",
+               "low", "high", "p_bootstrap", "p_randomisation", "p_corrected", "effect")
+
+
+def render_comparison(comp: Comparison, long: bool = False, max_warnings: int = 20) -> str:
+    """Terminal view: a compact table (mean, difference and a mark per metric) or, with
+    ``long``, one line per comparison with interval, p-values and effect size."""
+    from .report import format as fmt
+    from .scores import warning_lines
+    from .tables import text_table
+
+    level = f"{100 * (1 - comp.alpha):g}%"
+    out = [f"baseline {comp.baseline}; {comp.queries} queries; paired bootstrap "
+           f"({comp.method}, {comp.resamples} resamples, seed {comp.seed}) and sign-flip "
+           f"randomisation test"]
+    rows = comp.rows
+    label = {None: "all"}
+    if long:
+        body = [[label.get(r.type, r.type), r.n, r.run, r.metric, fmt.signed(r.diff),
+                 fmt.interval(r.low, r.high), fmt.pvalue(r.p_bootstrap),
+                 fmt.pvalue(r.p_randomisation), fmt.pvalue(r.p_corrected),
+                 fmt.num(r.effect, 2), fmt.mark(r.diff, r.p_corrected, comp.alpha)]
+                for r in rows]
+        out.append(text_table(["type", "queries", "run", "metric", "diff", f"{level} interval",
+                               "p boot", "p rand", "p Holm", "effect", ""], body,
+                              "lrll" + "r" * 6 + "l"))
+    else:
+        cell = {(r.type, r.run, r.metric): r for r in rows}
+        body = []
+        for group, n in comp.groups.items():
+            for i, run in enumerate(comp.runs):
+                line: list[Any] = [label.get(group, group) if i == 0 else "",
+                                   n if i == 0 else "", run]
+                for metric in comp.metrics:
+                    r = cell.get((group, run, metric))
+                    if r is None:  # the baseline itself
+                        base = next(c for c in rows if c.type == group and c.metric == metric)
+                        line.append(fmt.num(base.baseline_mean))
+                    else:
+                        line.append(f"{fmt.num(r.run_mean)} {fmt.signed(r.diff)} "
+                                    f"{fmt.mark(r.diff, r.p_corrected, comp.alpha)}")
+                body.append(line)
+        out.append(text_table(["type", "queries", "run", *comp.metrics], body,
+                              "lrl" + "l" * len(comp.metrics)))
+        out.append("each cell: mean, then difference from the baseline (run minus "
+                   "baseline); intervals, both p-values, effect sizes: --long, --json, --csv")
+    out.append(f"marks: {fmt.MARK_LEGEND}")
+    out.append(f"corrected p: sign-flip randomisation test, Holm-corrected over all "
+               f"{count(len(rows), 'comparison')} shown; alpha {comp.alpha:g}")
+    if not long and any(r.type is not None for r in rows):
+        out.append(f"per type: {TYPE_RULE}")
+    out.extend(warning_lines(comp.warnings, max_warnings))
+    return "\n".join(out)

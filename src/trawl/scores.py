@@ -1,0 +1,317 @@
+"""Score runs against qrels: per query, overall and per destination type.
+
+A query counts toward a destination type through the items it most wants: the
+catalogue types of its best-graded items (grade 2 in silver qrels). When those items
+have several types the query counts once toward each, so per-type query counts can add
+up to more than the number of queries; the overall mean counts every query once.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass
+from itertools import chain
+from operator import itemgetter
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from .catalogue import Catalogue
+from .errors import UsageError
+from .judgments import Qrels
+from .metrics import DEFAULT_METRICS, Metric, parse_metrics, score_matrix
+from .runs import Run, read_run
+
+if TYPE_CHECKING:  # pandas costs a second of start-up; the DataFrame views import it
+    import pandas as pd
+
+TYPE_RULE = ("a query counts toward the destination type of its best-graded relevant "
+             "items; a query whose best items have several types counts toward each")
+EXAMPLES_SHOWN = 5
+
+
+def count(n: int, singular: str, plural: str | None = None) -> str:
+    """``"1 query"``, ``"3 queries"``."""
+    return f"{n} {singular if n == 1 else plural or singular + 's'}"
+
+
+def examples(ids: Sequence[str]) -> str:
+    """``"q1, q2, q3"`` or ``"q1, q2, ... (12 in all)"`` for warnings."""
+    head = ", ".join(ids[:EXAMPLES_SHOWN])
+    return head if len(ids) <= EXAMPLES_SHOWN else f"{head}, ... ({len(ids)} in all)"
+
+
+def query_types(qrels: Qrels, catalogue: Catalogue) -> tuple[dict[str, tuple[str, ...]], list[str]]:
+    """Destination types per query (see module doc) and warnings about unknown items.
+
+    Queries with no item graded >= 1, or whose best items are all missing from the
+    catalogue, get no type: they count overall but in no per-type row.
+    """
+    by_id = catalogue.by_id
+    types: dict[str, tuple[str, ...]] = {}
+    unknown: dict[str, None] = {}
+    untyped: list[str] = []
+    for qid, judged in qrels.items():
+        top = max(judged.values())
+        if top < 1:
+            continue
+        found = set()
+        for item, grade in judged.items():
+            if item not in by_id:
+                unknown[item] = None
+            elif grade == top:
+                found.add(by_id[item].type)
+        if found:
+            types[qid] = tuple(sorted(found))
+        else:
+            untyped.append(qid)
+    warnings = []
+    if unknown:
+        warnings.append(f"{count(len(unknown), 'judged item')} not in the catalogue "
+                        f"{catalogue.path}: {examples(list(unknown))}")
+    if untyped:
+        warnings.append(f"{count(len(untyped), 'query', 'queries')} with best-graded items "
+                        f"all missing from the catalogue count in no destination type: "
+                        f"{examples(untyped)}")
+    return types, warnings
+
+
+def type_members(qids: Sequence[str], types: Mapping[str, tuple[str, ...]]) -> dict[str, np.ndarray]:
+    """Row indices of the queries counting toward each type, types in name order."""
+    rows: dict[str, list[int]] = {}
+    for i, qid in enumerate(qids):
+        for t in types.get(qid, ()):
+            rows.setdefault(t, []).append(i)
+    return {t: np.asarray(rows[t], dtype=np.int64) for t in sorted(rows)}
+
+
+def run_warnings(qrels: Qrels, run: Run, catalogue: Catalogue | None) -> list[str]:
+    """What a reader of the scores must know about one run's coverage."""
+    out = []
+    missing = [q for q in qrels if not run.results.get(q)]
+    if missing:
+        out.append(f"run {run.name!r}: {len(missing)} of {count(len(qrels), 'query', 'queries')}"
+                   f" without results, scored 0: {examples(missing)}")
+    extra = [q for q in run.results if q not in qrels]
+    if extra:
+        out.append(f"run {run.name!r}: {count(len(extra), 'query', 'queries')} not in the "
+                   f"qrels, ignored: {examples(extra)}")
+    if catalogue is not None:
+        by_id = catalogue.by_id
+        listed = set(map(itemgetter(0), chain.from_iterable(run.results.values())))
+        unknown = [] if listed <= by_id.keys() else [
+            f"{q}/{item}" for q, pairs in run.results.items()
+            for item, _ in pairs if item not in by_id]
+        if unknown:
+            out.append(f"run {run.name!r}: {count(len(unknown), 'result')} naming items not "
+                       f"in the catalogue (query/item): {examples(unknown)}")
+    return out
+
+
+def qrels_warnings(qrels: Qrels) -> list[str]:
+    empty = [q for q, judged in qrels.items() if max(judged.values()) < 1]
+    if not empty:
+        return []
+    return [f"{count(len(empty), 'query', 'queries')} without any item graded >= 1 score 0 "
+            f"on every metric (counted in the means, as trec_eval does): {examples(empty)}"]
+
+
+def check_run_names(runs: Sequence[Run]) -> None:
+    seen: set[str] = set()
+    for r in runs:
+        if r.name in seen:
+            raise UsageError(f"two runs are named {r.name!r}; give each run a distinct name "
+                             "(the tag column, or the file name with trawl.scores.read_runs)")
+        seen.add(r.name)
+
+
+def read_runs(paths: Sequence[str | Path]) -> list[Run]:
+    """Read runs, named by their tag unless tags repeat, then by file name (or path)."""
+    runs = [read_run(p) for p in paths]
+    if len({r.name for r in runs}) == len(runs):
+        return runs
+    stems = [Path(p).stem for p in paths]
+    names = stems if len(set(stems)) == len(stems) else [str(p) for p in paths]
+    return [Run(n, r.results) for n, r in zip(names, runs)]
+
+
+@dataclass(frozen=True, eq=False)
+class ScoreReport:
+    """Scores of several runs on one set of qrels.
+
+    ``values[r, q, m]`` is run r's score on qrels query q for metric m. ``types`` maps
+    a query to its destination types (empty without a catalogue). ``intervals`` holds
+    bootstrap (low, high) bounds of every mean when they were asked for.
+    """
+
+    metrics: tuple[str, ...]
+    runs: tuple[str, ...]
+    qids: tuple[str, ...]
+    values: np.ndarray
+    types: Mapping[str, tuple[str, ...]]
+    warnings: tuple[str, ...]
+    intervals: Mapping[tuple[str, str, str | None], tuple[float, float]] | None = None
+
+    def groups(self) -> dict[str | None, np.ndarray]:
+        """Query rows per group: ``None`` for all queries, then each destination type."""
+        out: dict[str | None, np.ndarray] = {None: np.arange(len(self.qids))}
+        out.update(type_members(self.qids, self.types))
+        return out
+
+    def means(self, rows: np.ndarray | None = None) -> np.ndarray:
+        """Mean per run and metric over the given query rows (default: all)."""
+        v = self.values if rows is None else self.values[:, rows, :]
+        return v.mean(axis=1) if v.shape[1] else np.full(v.shape[::2], np.nan)
+
+    def score_rows(self) -> list[dict[str, Any]]:
+        """One row per run, metric and group: {run, metric, type, n, mean, low, high}."""
+        out = []
+        for group, rows in self.groups().items():
+            means = self.means(rows)
+            for r, run in enumerate(self.runs):
+                for m, metric in enumerate(self.metrics):
+                    low, high = (self.intervals or {}).get((run, metric, group), (None, None))
+                    out.append({"run": run, "metric": metric, "type": group, "n": len(rows),
+                                "mean": float(means[r, m]), "low": low, "high": high})
+        return out
+
+    def per_query_rows(self) -> list[dict[str, Any]]:
+        out = []
+        for r, run in enumerate(self.runs):
+            for q, qid in enumerate(self.qids):
+                row: dict[str, Any] = {"run": run, "qid": qid,
+                                       "types": list(self.types.get(qid, ()))}
+                row.update(zip(self.metrics, self.values[r, q].tolist()))
+                out.append(row)
+        return out
+
+    @property
+    def per_query(self) -> pd.DataFrame:
+        """Long table: one row per run and query; columns run, qid, types, metrics."""
+        import pandas as pd
+
+        frame = pd.DataFrame(self.per_query_rows(),
+                             columns=["run", "qid", "types", *self.metrics])
+        frame["types"] = frame["types"].map(" ".join)
+        return frame
+
+    @property
+    def overall(self) -> pd.DataFrame:
+        """Mean per run (rows) and metric (columns) over every qrels query."""
+        import pandas as pd
+
+        return pd.DataFrame(self.means(), index=pd.Index(self.runs, name="run"),
+                            columns=list(self.metrics))
+
+    @property
+    def per_type(self) -> pd.DataFrame:
+        """Means per (run, type) with a ``queries`` column; empty without a catalogue."""
+        import pandas as pd
+
+        rows = [{"run": s["run"], "type": s["type"], "queries": s["n"],
+                 "metric": s["metric"], "mean": s["mean"]}
+                for s in self.score_rows() if s["type"] is not None]
+        if not rows:
+            return pd.DataFrame(columns=["queries", *self.metrics],
+                                index=pd.MultiIndex.from_tuples([], names=["run", "type"]))
+        wide = pd.DataFrame(rows).pivot_table(index=["run", "type", "queries"],
+                                              columns="metric", values="mean", sort=False)
+        return wide.reset_index("queries")[["queries", *self.metrics]].rename_axis(
+            columns=None)
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "metrics": list(self.metrics),
+            "runs": list(self.runs),
+            "queries": len(self.qids),
+            "type_rule": TYPE_RULE if self.types else None,
+            "scores": self.score_rows(),
+            "per_query": self.per_query_rows(),
+            "warnings": list(self.warnings),
+        }
+
+
+def score_runs(qrels: Qrels, runs: Sequence[Run] | Run,
+               metrics: Iterable[str | Metric] = DEFAULT_METRICS,
+               catalogue: Catalogue | None = None, resamples: int = 0, seed: int = 0,
+               alpha: float = 0.05) -> ScoreReport:
+    """Score every run on every qrels query; per-type means need the catalogue.
+
+    With ``resamples > 0`` every mean also gets a percentile bootstrap interval at
+    level ``1 - alpha`` (the same resamples of queries for every run and metric).
+    """
+    runs = [runs] if isinstance(runs, Run) else list(runs)
+    if not runs:
+        raise UsageError("no runs to score; give at least one run file")
+    check_run_names(runs)
+    ms = parse_metrics(metrics)
+    warnings = qrels_warnings(qrels)
+    types: dict[str, tuple[str, ...]] = {}
+    if catalogue is not None:
+        types, type_warnings = query_types(qrels, catalogue)
+        warnings += type_warnings
+    for run in runs:
+        warnings += run_warnings(qrels, run, catalogue)
+    values = np.stack([score_matrix(qrels, run, ms) for run in runs])
+    report = ScoreReport(tuple(m.name for m in ms), tuple(r.name for r in runs),
+                         tuple(qrels), values, types, tuple(warnings))
+    if resamples <= 0:
+        return report
+    from .stats import bootstrap_intervals
+
+    intervals = {}
+    for group, rows in report.groups().items():
+        flat = values[:, rows, :].transpose(1, 0, 2).reshape(len(rows), -1)
+        bounds = bootstrap_intervals(flat, resamples, seed, alpha)
+        for j, (low, high) in enumerate(bounds):
+            r, m = divmod(j, len(ms))
+            intervals[(report.runs[r], report.metrics[m], group)] = (low, high)
+    return ScoreReport(report.metrics, report.runs, report.qids, values, types,
+                       report.warnings, intervals)
+
+
+def render_scores(report: ScoreReport, max_warnings: int = 20) -> str:
+    """Terminal view: means overall, per destination type, then warnings."""
+    from .report import format as fmt
+    from .tables import text_table
+
+    rows = report.score_rows()
+    has_ci = report.intervals is not None
+
+    def cell(s: dict[str, Any]) -> str:
+        if not has_ci:
+            return fmt.num(s["mean"])
+        return f"{fmt.num(s['mean'])} ({fmt.interval(s['low'], s['high'])})"
+
+    by_key = {(s["run"], s["metric"], s["type"]): s for s in rows}
+    out = [f"{len(report.qids)} queries, {len(report.runs)} run(s); means over all queries"
+           + (" with 95% bootstrap intervals" if has_ci else "")]
+    out.append(text_table(["run", *report.metrics],
+                          [[run, *(cell(by_key[(run, m, None)]) for m in report.metrics)]
+                           for run in report.runs]))
+    groups = report.groups()
+    if len(groups) > 1:
+        out.append("")
+        out.append(f"per destination type ({TYPE_RULE})")
+        body = []
+        for t, members in groups.items():
+            if t is None:
+                continue
+            for i, run in enumerate(report.runs):
+                body.append([t if i == 0 else "", len(members) if i == 0 else "", run,
+                             *(cell(by_key[(run, m, t)]) for m in report.metrics)])
+        out.append(text_table(["type", "queries", "run", *report.metrics], body, "lrl" + "r" *
+                              len(report.metrics)))
+    out.extend(warning_lines(report.warnings, max_warnings))
+    return "\n".join(out)
+
+
+def warning_lines(warnings: Sequence[str], max_shown: int = 20) -> list[str]:
+    if not warnings:
+        return []
+    out = ["", f"{len(warnings)} warning(s):"]
+    out += [f"  warning: {w}" for w in warnings[:max_shown]]
+    if len(warnings) > max_shown:
+        out.append(f"  ... and {len(warnings) - max_shown} more (--json lists all)")
+    return out
