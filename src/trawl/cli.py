@@ -690,5 +690,208 @@ def distill(output: str, pca_dims: int, quiet: bool) -> None:
                f"{time.perf_counter() - start:.1f} s; use it as -e static:{path}")
 
 
+# --- scoring, comparison, misses ----------------------------------------------------------------
+
+def catalogue_option(required: bool, help: str):
+    return click.option("-c", "--catalogue", required=required, default=None,
+                        type=click.Path(dir_okay=False), help=help)
+
+
+def metrics_option(f):
+    return click.option("-m", "--metric", "metrics", multiple=True, metavar="METRIC",
+                        help="Metric to compute; repeat for several. Forms: ndcg@K, mrr@K, "
+                             "recall@K, precision@K, hit@K, map, map@K. Default: ndcg@10, "
+                             "mrr@10, recall@10, recall@100.")(f)
+
+
+def _metrics(names: tuple[str, ...]):
+    from .metrics import DEFAULT_METRICS, parse_metrics
+
+    return parse_metrics(names or DEFAULT_METRICS)
+
+
+@main.command()
+@click.argument("qrels", type=click.Path(dir_okay=False))
+@click.argument("runs", nargs=-1, required=True, type=click.Path(dir_okay=False))
+@catalogue_option(False, "Catalogue of the judged items: adds means per destination type.")
+@metrics_option
+@click.option("--resamples", type=click.IntRange(min=0), default=0, show_default=True,
+              help="Bootstrap resamples for a 95% interval around each mean (0: none).")
+@seed_option
+@click.option("--per-query", "per_query_path", type=click.Path(dir_okay=False), default=None,
+              metavar="PATH", help="Write the per-query scores to PATH (.csv or .json).")
+@click.option("--csv", "csv_path", type=click.Path(dir_okay=False), default=None,
+              metavar="PATH", help="Write the table of means (one row per run, metric and "
+                                   "type) to PATH as CSV.")
+@json_option
+def score(qrels: str, runs: tuple[str, ...], catalogue: str | None, metrics: tuple[str, ...],
+          resamples: int, seed: int, per_query_path: str | None, csv_path: str | None,
+          as_json: bool) -> None:
+    """Score TREC runs against qrels: means over all queries and, with --catalogue, per
+    destination type.
+
+    Queries in the qrels that a run lacks score 0 and are warned about, as are run
+    results naming items missing from the catalogue; duplicate run lines are errors.
+    Scores under silver (machine-made) judgments are estimates.
+
+    \b
+    Example:
+      trawl score qrels/quillfern-gold.qrels minilm.run bm25.run -c corpora/quillfern.jsonl
+      trawl score silver.qrels minilm.run -m ndcg@10 -m hit@1 --per-query scores.csv
+    """
+    from .errors import UsageError
+    from .scores import read_runs, render_scores, score_runs
+
+    ms = _metrics(metrics)
+    if per_query_path is not None and not per_query_path.endswith((".csv", ".json")):
+        raise UsageError(f"--per-query {per_query_path}: name a .csv or .json file")
+    from .judgments import read_qrels
+
+    cat = None
+    if catalogue is not None:
+        from .catalogue import load_catalogue
+
+        cat = load_catalogue(catalogue)
+    report = score_runs(read_qrels(qrels), read_runs(runs), ms, cat, resamples=resamples,
+                        seed=seed)
+    if per_query_path is not None:
+        _write_rows(per_query_path, report.per_query_rows(),
+                    ["run", "qid", "types", *report.metrics])
+    if csv_path is not None:
+        from .tables import write_csv
+
+        write_csv(csv_path, report.score_rows(), ["run", "metric", "type", "n", "mean",
+                                                  "low", "high"])
+    if as_json:
+        emit_json({"qrels": qrels, **report.as_dict()})
+    else:
+        click.echo(render_scores(report, MAX_WARNINGS_SHOWN))
+
+
+def _write_rows(path: str, rows: list[dict[str, Any]], columns: list[str]) -> None:
+    if path.endswith(".json"):
+        from .files import write_text_atomic
+
+        write_text_atomic(path, json.dumps(rows, indent=1, ensure_ascii=False) + "\n")
+    else:
+        from .tables import write_csv
+
+        write_csv(path, rows, columns)
+
+
+@main.command()
+@click.argument("qrels", type=click.Path(dir_okay=False))
+@click.argument("runs", nargs=-1, required=True, type=click.Path(dir_okay=False))
+@click.option("--baseline", default=None, metavar="RUN",
+              help="Run every other run is compared with: a run's name or one of the RUN "
+                   "files (default: the first RUN).")
+@catalogue_option(False, "Catalogue of the judged items: adds comparisons per destination "
+                         "type.")
+@metrics_option
+@click.option("--resamples", type=click.IntRange(min=1), default=10000, show_default=True,
+              help="Bootstrap resamples and random sign flips.")
+@seed_option
+@click.option("--interval", "method", type=click.Choice(["percentile", "bca"]),
+              default="percentile", show_default=True,
+              help="Bootstrap interval: percentile, or bias-corrected and accelerated.")
+@click.option("--alpha", type=click.FloatRange(0, 1, min_open=True, max_open=True),
+              default=0.05, show_default=True,
+              help="Significance level; the intervals are at 1 - alpha.")
+@click.option("--long", "long_table", is_flag=True,
+              help="One line per comparison with interval, p-values and effect size.")
+@click.option("--csv", "csv_path", type=click.Path(dir_okay=False), default=None,
+              metavar="PATH", help="Write every comparison row to PATH as CSV.")
+@json_option
+@quiet_option
+def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, catalogue: str | None,
+            metrics: tuple[str, ...], resamples: int, seed: int, method: str, alpha: float,
+            long_table: bool, csv_path: str | None, as_json: bool, quiet: bool) -> None:
+    """Compare runs with a baseline on the same queries: mean difference per metric,
+    paired bootstrap interval, p-values from the paired bootstrap and a sign-flip
+    randomisation test, Holm's correction over every comparison shown, and an effect
+    size (mean difference over the spread of per-query differences).
+
+    \b
+    Example:
+      trawl compare qrels/quillfern-gold.qrels bm25.run minilm.run fused.run
+      trawl compare silver.qrels a.run b.run --baseline b.run -c items.jsonl --long
+    """
+    from .compare import CSV_COLUMNS, compare_runs, render_comparison
+    from .errors import UsageError
+    from .judgments import read_qrels
+    from .scores import read_runs
+
+    if long_table and as_json:
+        raise UsageError("--long and --json conflict: --long shapes the table, --json "
+                         "replaces it; drop one")
+    if len(runs) < 2:
+        raise UsageError("compare needs at least two RUN files (a baseline and one more)")
+    ms = _metrics(metrics)
+    cat = None
+    if catalogue is not None:
+        from .catalogue import load_catalogue
+
+        cat = load_catalogue(catalogue)
+    loaded = read_runs(runs)
+    if baseline is not None and baseline in runs:
+        baseline = loaded[runs.index(baseline)].name
+    comp = compare_runs(read_qrels(qrels), loaded, ms, baseline, resamples, seed, method,
+                        cat, alpha, quiet)
+    if csv_path is not None:
+        from .tables import write_csv
+
+        write_csv(csv_path, [r.as_dict() for r in comp.rows], CSV_COLUMNS)
+    if as_json:
+        emit_json({"qrels": qrels, **comp.as_dict()})
+    else:
+        click.echo(render_comparison(comp, long_table, MAX_WARNINGS_SHOWN))
+
+
+@main.command()
+@click.argument("qrels", type=click.Path(dir_okay=False))
+@click.argument("run", type=click.Path(dir_okay=False))
+@catalogue_option(True, "Catalogue of the judged and retrieved items (their types).")
+@click.option("-k", "k", type=click.IntRange(min=1), default=10, show_default=True,
+              help="Cutoff for hit@k and for counting a miss.")
+@click.option("--worst", type=click.IntRange(min=0), default=5, show_default=True,
+              help="Worst queries listed per destination type.")
+@click.option("--queries", "queries_path", type=click.Path(dir_okay=False), default=None,
+              help="Queries TSV, to show the text of the worst queries.")
+@click.option("--csv", "csv_path", type=click.Path(dir_okay=False), default=None,
+              metavar="PATH", help="Write the per-type table to PATH as CSV.")
+@json_option
+def misses(qrels: str, run: str, catalogue: str, k: int, worst: int, queries_path: str | None,
+           csv_path: str | None, as_json: bool) -> None:
+    """Where a run fails, by destination type of the wanted item: hit@1, hit@k, misses,
+    median rank of the first relevant item, the types of what came first instead, and
+    the worst queries with the item that won.
+
+    \b
+    Example:
+      trawl misses qrels/quillfern-gold.qrels minilm.run -c corpora/quillfern.jsonl
+      trawl misses silver.qrels bm25.run -c items.jsonl -k 5 --queries silver.queries.tsv
+    """
+    from .catalogue import load_catalogue
+    from .judgments import read_qrels
+    from .misses import CSV_COLUMNS, miss_table, render_misses
+    from .runs import read_run
+
+    texts = None
+    if queries_path is not None:
+        from .queries import read_queries
+
+        texts = read_queries(queries_path)
+    rep = miss_table(read_qrels(qrels), read_run(run), load_catalogue(catalogue), k, worst,
+                     texts)
+    if csv_path is not None:
+        from .tables import write_csv
+
+        write_csv(csv_path, [r.as_dict() for r in rep.rows], CSV_COLUMNS)
+    if as_json:
+        emit_json({"qrels": qrels, **rep.as_dict()})
+    else:
+        click.echo(render_misses(rep, MAX_WARNINGS_SHOWN))
+
+
 if __name__ == "__main__":  # pragma: no cover
     sys.exit(main())
