@@ -232,7 +232,9 @@ def test_agree_cli_table_and_json(tmp_path):
     lines = res.stdout.splitlines()
     assert lines[0] == (f"ndcg@10 under A = {tmp_path / 'a.qrels'} (20 queries) and "
                         f"B = {tmp_path / 'b.qrels'} (20 queries); 20 queries in both")
-    assert "Kendall's tau-b  -1.000" in res.stdout
+    assert "Kendall's tau-b  -1.000  [-1.000, -1.000]" in lines
+    assert "Spearman's rho   -1.000  [-1.000, -1.000]" in lines
+    assert "(95% bootstrap interval, 50 resamples over queries, seed 0)" in lines
     assert "1 pair(s) change order (better under A, worse under B):" in lines
     assert any(line.startswith("  sys0 vs sys1: +") for line in lines)
     assert "with 2 systems a rank correlation" in res.stdout
