@@ -308,7 +308,7 @@ def _share(x: float) -> str:
 
 
 def _interval(low: float, high: float) -> str:
-    return "n/a" if low != low else f"{low:.3f}-{high:.3f}"
+    return "n/a" if low != low else f"[{low:.3f}, {high:.3f}]"
 
 
 @main.command()
