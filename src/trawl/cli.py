@@ -417,6 +417,10 @@ def _rank(r: float) -> str:
               help="Retries after a failed call, waiting 1, 2, 4, ... seconds.")
 @click.option("--llm-key-env", default="TRAWL_LLM_API_KEY", show_default=True,
               metavar="NAME", help="Environment variable holding the server's API key, if any.")
+@click.option("--no-scrub", is_flag=True,
+              help="Send item text and --llm-examples to the chat server as they are "
+                   "(default: e-mails, phone numbers, long digit runs and postcodes are "
+                   "replaced by placeholders, and counted).")
 @template_option
 @json_option
 @quiet_option
@@ -425,7 +429,7 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
           max_overlap: float | None, check_with: tuple[str, ...], check_depth: int | None,
           related_grade: int, typo_rate: float, llm_url: str | None, llm_model: str | None,
           llm_examples: str | None, llm_timeout: float, llm_retries: int, llm_key_env: str,
-          template: str | None, as_json: bool, quiet: bool) -> None:
+          no_scrub: bool, template: str | None, as_json: bool, quiet: bool) -> None:
     """Synthesise pseudo-queries with graded silver judgments: the source item is grade 2,
     its related items grade 1. Prints queries per style and destination type, their
     length and their word overlap with the source item.
@@ -444,6 +448,7 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
     from .errors import UsageError
     from .queries import read_queries
     from .synth import LlmClient, load_wordnet, read_lexicon, synthesise, write_silver
+    from .synth.llm import PromptScrubber, keep_text
     from .synth.synthesise import parse_mix
 
     mix = parse_mix(styles)
@@ -454,6 +459,8 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
     if llm_url is not None and "llm" not in mix:
         raise UsageError("--llm-url given but 'llm' is not in --styles; add e.g. "
                          "--styles keyword,paraphrase,llm:2")
+    if no_scrub and llm_url is None:
+        raise UsageError("--no-scrub applies to LLM prompts; it needs --llm-url")
     if check_depth is not None and not check_with:
         raise UsageError("--check-depth needs --check-with")
     wordnet = "auto"
@@ -467,7 +474,7 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
         llm = LlmClient(llm_url, llm_model, api_key=os.environ.get(llm_key_env) or None,
                         timeout=llm_timeout, retries=llm_retries,
                         examples=tuple(read_queries(llm_examples).values()) if llm_examples
-                        else ())
+                        else (), redact=keep_text if no_scrub else PromptScrubber())
     silver = synthesise(
         cat, per_item=per_item, sample=sample, styles=mix, seed=seed,
         calibrate_with=read_queries(calibrate_with) if calibrate_with else None,
@@ -476,9 +483,10 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
         lexicon=read_lexicon(lexicon) if lexicon else None, wordnet=wordnet, llm=llm,
         typo_rate=typo_rate, related_grade=related_grade, quiet=quiet)
     paths = write_silver(prefix, silver)
+    scrubbed = llm.scrubbed if llm is not None else None
     if as_json:
         emit_json({**silver.summary, "skipped_styles": dict(silver.skipped_styles),
-                   "files": [str(p) for p in paths]})
+                   "scrubbed_from_prompts": scrubbed, "files": [str(p) for p in paths]})
         return
     for style, why in silver.skipped_styles.items():
         click.echo(f"skipped style {style}: {why}", err=True)
@@ -499,6 +507,9 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
                f"{s['profile']['ceiling']}")
     click.echo("Silver judgments are estimates, not human labels; see DEVELOPERS.md "
                "'How good is silver?' for their measured agreement with people.")
+    if scrubbed is not None:
+        click.echo("scrubbed from LLM prompts: " + (", ".join(
+            f"{n} {kind}" for kind, n in scrubbed.items() if n) or "nothing found"))
     for p in paths:
         click.echo(f"wrote {p}")
 
@@ -693,7 +704,7 @@ def distill(output: str, pca_dims: int, quiet: bool) -> None:
 # --- scoring, comparison, misses ----------------------------------------------------------------
 
 def catalogue_option(required: bool, help: str):
-    return click.option("-c", "--catalogue", required=required, default=None,
+    return click.option("-c", "--catalogue", required=required,
                         type=click.Path(dir_okay=False), help=help)
 
 
@@ -892,6 +903,124 @@ def misses(qrels: str, run: str, catalogue: str, k: int, worst: int, queries_pat
     else:
         click.echo(render_misses(rep, MAX_WARNINGS_SHOWN))
 
+
+# --- the whole evaluation -------------------------------------------------------------------------
+
+def _step(quiet: bool):
+    """Step lines on stderr (so --json output stays clean), silenced by --quiet."""
+    return None if quiet else (lambda msg: click.echo(msg, err=True))
+
+
+def _finish(result, as_json: bool) -> None:
+    from .report.terminal import summary
+
+    if as_json:
+        emit_json(result.bundle)
+        return
+    click.echo(summary(result.bundle))
+    click.echo(f"\nwrote {result.out_dir}/ (runs, scores, comparisons, misses as CSV and "
+               f"JSON) and {result.report} in {result.seconds:.1f} s")
+
+
+@main.command("eval")
+@click.argument("catalogue", type=click.Path(dir_okay=False))
+@click.argument("queries", type=click.Path(dir_okay=False))
+@click.argument("qrels", type=click.Path(dir_okay=False))
+@click.option("-e", "--encoder", "encoders", multiple=True, required=True, metavar="SPEC",
+              help="Encoder to evaluate; repeat for several. NAME=SPEC names it in the "
+                   "report. Specs: minilm, minilm-int8, static:DIR, st:DIR, bm25.")
+@click.option("-o", "--output", required=True, type=click.Path(file_okay=False),
+              help="Folder for indexes, runs, tables and report.html.")
+@click.option("--fuse", multiple=True, metavar="A+B",
+              help="Add a Reciprocal Rank Fusion of these systems; repeat for several.")
+@click.option("--baseline", default=None, metavar="NAME",
+              help="System every other is compared with (default: the first -e).")
+@click.option("-k", "k", type=click.IntRange(min=1), default=100, show_default=True,
+              help="Results kept per query (capped at the catalogue size).")
+@metrics_option
+@click.option("--resamples", type=click.IntRange(min=1), default=10000, show_default=True,
+              help="Bootstrap and randomisation resamples.")
+@seed_option
+@click.option("--judgments", "judged_by", type=click.Choice(["auto", "silver", "human"]),
+              default="auto", show_default=True,
+              help="Who made the judgments; auto: silver when a trawl synth provenance "
+                   "file (PREFIX.jsonl) sits beside PREFIX.queries.tsv.")
+@click.option("--ann", type=click.Choice(["exact", "hnsw"]), default="exact",
+              show_default=True, help="Dense search: exact, or an HNSW graph.")
+@click.option("--cache", "cache_dir", type=click.Path(file_okay=False), default=None,
+              help="Embedding cache folder (default: $TRAWL_CACHE_DIR or ~/.cache/trawl).")
+@template_option
+@click.option("--title", default=None, help="Title of the report.")
+@quiet_option
+@json_option
+def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, ...],
+                 output: str, fuse: tuple[str, ...], baseline: str | None, k: int,
+                 metrics: tuple[str, ...], resamples: int, seed: int, judged_by: str,
+                 ann: str, cache_dir: str | None, template: str | None, title: str | None,
+                 quiet: bool, as_json: bool) -> None:
+    """Index, search, score, compare and analyse misses for every encoder in one go,
+    and write report.html.
+
+    Indexes are kept in OUTPUT/indexes and reused while the catalogue and encoder are
+    unchanged; vectors come from the embedding cache, so reruns finish fast. Prints
+    quality against latency with significance marks and the headline of the miss table.
+    Under silver judgments every figure is an estimate, and the output says so.
+
+    \b
+    Example:
+      trawl synth corpora/quillfern.jsonl -o silver/qf
+      trawl eval corpora/quillfern.jsonl silver/qf.queries.tsv silver/qf.qrels \\
+        -e minilm -e bm25 --fuse minilm+bm25 -o eval-out
+    """
+    from pathlib import Path
+
+    from .metrics import DEFAULT_METRICS
+    from .pipeline import JudgmentSet, evaluate
+
+    silver = {"auto": None, "silver": True, "human": False}[judged_by]
+    js = JudgmentSet("judgments", Path(queries), Path(qrels), Path(qrels).name, silver=silver)
+    result = evaluate(catalogue, [js], encoders, output, fuse=fuse, baseline=baseline, k=k,
+                      metrics=metrics or DEFAULT_METRICS, resamples=resamples, seed=seed,
+                      ann=ann, cache_dir=cache_dir, template=template, title=title,
+                      quiet=quiet, notify=_step(quiet or as_json))
+    _finish(result, as_json)
+
+
+@main.command()
+@click.option("-o", "--output", default="demo-out", show_default=True,
+              type=click.Path(file_okay=False), help="Folder for everything the demo makes.")
+@click.option("-e", "--encoder", "encoders", multiple=True, metavar="SPEC",
+              help="Evaluate only these encoders (default: minilm, minilm-int8, static, "
+                   "bm25; 'static' is the model the demo distils).")
+@click.option("--fuse", multiple=True, metavar="A+B",
+              help="Fused systems (default: minilm+bm25 when both are evaluated).")
+@click.option("--sample", type=click.IntRange(min=1), default=None,
+              help="Synthesise queries from this many items only (stratified by type).")
+@click.option("--resamples", type=click.IntRange(min=1), default=10000, show_default=True,
+              help="Bootstrap and randomisation resamples.")
+@seed_option
+@quiet_option
+@json_option
+def demo(output: str, encoders: tuple[str, ...], fuse: tuple[str, ...], sample: int | None,
+         resamples: int, seed: int, quiet: bool, as_json: bool) -> None:
+    """The whole job on the bundled transit catalogue: check it, distil the static
+    encoder, synthesise silver queries, evaluate every encoder and the hybrid against the
+    silver set and the hand-judged gold set, measure how alike the two sets rank the
+    systems, and write OUTPUT/report.html.
+
+    Reruns reuse the distilled model and the embedding cache in OUTPUT.
+
+    \b
+    Example:
+      trawl demo -o demo-out
+      trawl demo -o quick -e bm25 -e minilm --sample 100 --resamples 1000
+    """
+    from .pipeline import DEMO_ENCODERS, demo as run_demo
+
+    result = run_demo(output, encoders=encoders or DEMO_ENCODERS, fuse=fuse or None,
+                      sample=sample, resamples=resamples, seed=seed, quiet=quiet,
+                      notify=_step(quiet or as_json))
+    _finish(result, as_json)
 
 if __name__ == "__main__":  # pragma: no cover
     sys.exit(main())

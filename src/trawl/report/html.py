@@ -174,7 +174,9 @@ def _setup(bundle: Mapping[str, Any], looks: Mapping[str, Look]) -> Markup:
     sys_rows = []
     for s in bundle["systems"]:
         sys_rows.append([_swatch(s["name"], looks), el("code", None, s.get("spec", "")),
-                         s.get("kind", ""), el("code", None, (s.get("fingerprint") or "")[:12]),
+                         s.get("kind", ""),
+                         el("code", None, s["fingerprint"][:12]) if s.get("fingerprint")
+                         else fmt.MISSING,
                          s.get("dimensions") or fmt.MISSING, fmt.size(s.get("index_bytes")),
                          fmt.size(s.get("bytes_per_item"))])
     systems = _table(["system", "spec", "kind", "fingerprint", "dimensions", "index size",
