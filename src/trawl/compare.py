@@ -144,8 +144,8 @@ def compare_scores(report: ScoreReport, resamples: int = 10000, seed: int = 0,
                                     low=est.low, high=est.high, p_bootstrap=est.p_value,
                                     p_randomisation=float(p_rand[j]), effect=effects[j]))
             if group is not None and len(rows) < FEW_QUERIES:
-                warnings.append(f"type {group!r} has {count(len(rows), 'query', 'queries')} "
-                                f"(fewer than {FEW_QUERIES}): its differences and p-values "
+                warnings.append(f"type {group!r}: only {count(len(rows), 'query', 'queries')} "
+                                f"(fewer than {FEW_QUERIES}); its differences and p-values "
                                 "say little")
             bar.update()
     corrected = holm([p["p_randomisation"] for p in pending])

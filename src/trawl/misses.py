@@ -214,7 +214,7 @@ def render_misses(rep: MissReport, max_warnings: int = 20) -> str:
          "never found"],
         [[r.type, r.queries, fmt.share(r.hit_at_1), *([fmt.share(r.hit_at_k)] if hit_k else []),
           r.misses,
-          fmt.num(r.median_rank, 1) if r.median_rank is not None else f">{rep.depth}",
+          fmt.num(r.median_rank, 1) if r.median_rank is not None else "not found",
           r.not_found] for r in rep.rows]))
     winners = sorted({t for r in rep.rows for t in r.lost_to},
                      key=lambda t: (t in (NO_RESULTS, UNKNOWN_ITEM), t))
@@ -236,8 +236,7 @@ def render_misses(rep: MissReport, max_warnings: int = 20) -> str:
             if w.type != current:
                 current = w.type
                 out.append(f"  {current}")
-            where = (f"at rank {w.rank}" if w.rank is not None
-                     else f"not among the run's {rep.depth} results")
+            where = f"at rank {w.rank}" if w.rank is not None else "not retrieved"
             asked = f" \"{w.query}\"" if w.query else ""
             out.append(f"    {w.qid}{asked}: wanted {w.wanted.id} ({w.wanted.title!r}) {where}")
             if w.winner is None:

@@ -68,11 +68,11 @@ def query_types(qrels: Qrels, catalogue: Catalogue) -> tuple[dict[str, tuple[str
             untyped.append(qid)
     warnings = []
     if unknown:
-        warnings.append(f"{count(len(unknown), 'judged item')} not in the catalogue "
-                        f"{catalogue.path}: {examples(list(unknown))}")
+        warnings.append(f"judged items not in the catalogue {catalogue.path}: "
+                        f"{len(unknown)}: {examples(list(unknown))}")
     if untyped:
-        warnings.append(f"{count(len(untyped), 'query', 'queries')} with best-graded items "
-                        f"all missing from the catalogue count in no destination type: "
+        warnings.append(f"queries whose best-graded items are all missing from the "
+                        f"catalogue (so in no destination type): {len(untyped)}: "
                         f"{examples(untyped)}")
     return types, warnings
 
@@ -91,12 +91,12 @@ def run_warnings(qrels: Qrels, run: Run, catalogue: Catalogue | None) -> list[st
     out = []
     missing = [q for q in qrels if not run.results.get(q)]
     if missing:
-        out.append(f"run {run.name!r}: {len(missing)} of {count(len(qrels), 'query', 'queries')}"
-                   f" without results, scored 0: {examples(missing)}")
+        out.append(f"run {run.name!r}: queries without results, scored 0: {len(missing)} of "
+                   f"{len(qrels)}: {examples(missing)}")
     extra = [q for q in run.results if q not in qrels]
     if extra:
-        out.append(f"run {run.name!r}: {count(len(extra), 'query', 'queries')} not in the "
-                   f"qrels, ignored: {examples(extra)}")
+        out.append(f"run {run.name!r}: queries not in the qrels, ignored: {len(extra)}: "
+                   f"{examples(extra)}")
     if catalogue is not None:
         by_id = catalogue.by_id
         listed = set(map(itemgetter(0), chain.from_iterable(run.results.values())))
@@ -104,8 +104,8 @@ def run_warnings(qrels: Qrels, run: Run, catalogue: Catalogue | None) -> list[st
             f"{q}/{item}" for q, pairs in run.results.items()
             for item, _ in pairs if item not in by_id]
         if unknown:
-            out.append(f"run {run.name!r}: {count(len(unknown), 'result')} naming items not "
-                       f"in the catalogue (query/item): {examples(unknown)}")
+            out.append(f"run {run.name!r}: results naming items not in the catalogue: "
+                       f"{len(unknown)} (query/item): {examples(unknown)}")
     return out
 
 
@@ -113,8 +113,8 @@ def qrels_warnings(qrels: Qrels) -> list[str]:
     empty = [q for q, judged in qrels.items() if max(judged.values()) < 1]
     if not empty:
         return []
-    return [f"{count(len(empty), 'query', 'queries')} without any item graded >= 1 score 0 "
-            f"on every metric (counted in the means, as trec_eval does): {examples(empty)}"]
+    return [f"queries with no item graded >= 1: {len(empty)}; they score 0 on every metric "
+            f"and count in the means, as in trec_eval: {examples(empty)}"]
 
 
 def check_run_names(runs: Sequence[Run]) -> None:
