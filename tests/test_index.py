@@ -293,3 +293,42 @@ def test_retrieve_with_bm25_needs_no_encoder(tmp_path):
     assert [i for i, _ in run.results["q"]] == ["it002", "it022", "it012"]
     scores = [s for _, s in run.results["q"]]
     assert scores[0] > scores[1] == scores[2] > 0
+
+
+class _Interrupting:
+    """Wraps a real encoder; raises after ``calls`` document batches (a simulated kill)."""
+
+    def __init__(self, encoder, calls: int) -> None:
+        self.inner, self.calls, self.spec = encoder, calls, encoder.spec
+        self.fingerprint = encoder.fingerprint
+
+    def encode_documents(self, texts, batch_size=32):
+        if self.calls == 0:
+            raise KeyboardInterrupt("simulated interruption")
+        self.calls -= 1
+        return self.inner.encode_documents(texts, batch_size)
+
+
+@pytest.mark.slow
+def test_resumed_build_with_the_real_model_is_bit_identical(tmp_path, monkeypatch):
+    # Batch composition changes float rounding in a transformer, so a resumed build is only
+    # identical if it embeds the same chunks in the same batches; this checks it does.
+    from trawl.retrievers import default_loader
+
+    monkeypatch.setattr(index_mod, "EMBED_CHUNK", 8)
+    cat = tiny_catalogue(40)
+    real = default_loader()
+    build_index(cat, "minilm", tmp_path / "clean", cache_dir=tmp_path / "c1", quiet=True,
+                batch_size=3, loader=real)
+
+    class Loader(FakeLoader):
+        def encoder(self, spec):
+            return _Interrupting(real.encoder(spec), calls=2)
+
+    with pytest.raises(KeyboardInterrupt):
+        build_index(cat, "minilm", tmp_path / "idx", cache_dir=tmp_path / "c2", quiet=True,
+                    batch_size=3, loader=Loader())
+    info = build_index(cat, "minilm", tmp_path / "idx", cache_dir=tmp_path / "c2", quiet=True,
+                       batch_size=3, loader=real)
+    assert (info.embedded, info.reused) == (40 - 16, 16)
+    assert files_except_build(tmp_path / "idx") == files_except_build(tmp_path / "clean")

@@ -16,7 +16,6 @@ and a spec has to travel as one string (``trawl eval -e A -e B``).
 from __future__ import annotations
 
 import hashlib
-import os
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path

@@ -7,6 +7,8 @@ by table look-up (``static:DIR``).
 
 from __future__ import annotations
 
+import contextlib
+import io
 import os
 import shutil
 from pathlib import Path
@@ -35,7 +37,9 @@ def distill_static(out_dir: str | Path, pca_dims: int = DEFAULT_PCA_DIMS,
 
     transformers.logging.set_verbosity_error()
     transformers.logging.disable_progress_bar()
-    model = distill(model_name=str(bundled.model_path()), pca_dims=pca_dims, device="cpu")
+    # model2vec draws its own progress bars on stderr; quiet means none
+    with contextlib.redirect_stderr(io.StringIO()) if quiet else contextlib.nullcontext():
+        model = distill(model_name=str(bundled.model_path()), pca_dims=pca_dims, device="cpu")
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = out.parent / f".{out.name}.building-{os.getpid()}"
     shutil.rmtree(tmp, ignore_errors=True)
