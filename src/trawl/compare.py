@@ -14,7 +14,7 @@ and then claims certainty it does not have.
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import asdict, dataclass
 from typing import Any
 
@@ -64,7 +64,7 @@ class Comparison:
     runs: tuple[str, ...]
     metrics: tuple[str, ...]
     queries: int
-    groups: dict[str | None, int]  # group -> number of queries
+    groups: Mapping[str | None, int]  # group -> number of queries
     rows: tuple[ComparisonRow, ...]
     resamples: int
     seed: int

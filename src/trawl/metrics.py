@@ -97,13 +97,11 @@ class RankedGains:
     """What every metric needs, one row per qrels query.
 
     ``gains[q, r]`` is the grade of the item at rank r+1 (0 if unjudged, past the end of
-    the ranking or negative), ``retrieved[q]`` the ranking's length, ``relevant[q]`` the
-    number of items graded >= 1 in the qrels and ``ideal[q]`` the judged grades sorted
-    best first (zero-padded).
+    the ranking or negative), ``relevant[q]`` the number of items graded >= 1 in the
+    qrels and ``ideal[q]`` the judged grades sorted best first (zero-padded).
     """
 
     gains: np.ndarray
-    retrieved: np.ndarray
     relevant: np.ndarray
     ideal: np.ndarray
 
@@ -114,8 +112,8 @@ def ranked_gains(qrels: Mapping[str, Mapping[str, int]], run: Run,
     qids = list(qrels)
     results = run.results
     rankings = [results.get(qid, ()) for qid in qids]
-    lengths = np.fromiter((len(r) for r in rankings), dtype=np.int64, count=len(qids))
-    width = int(lengths.max(initial=0)) if depth is None else min(depth, int(lengths.max(initial=0)))
+    longest = max(map(len, rankings), default=0)
+    width = longest if depth is None else min(depth, longest)
     gains = np.zeros((len(qids), max(width, 1)), dtype=np.float64)
     for i, (qid, pairs) in enumerate(zip(qids, rankings)):
         if pairs:
@@ -127,7 +125,7 @@ def ranked_gains(qrels: Mapping[str, Mapping[str, int]], run: Run,
     for i, g in enumerate(grades):
         ideal[i, :len(g)] = g
     relevant = np.fromiter((len(g) for g in grades), dtype=np.float64, count=len(grades))
-    return RankedGains(gains, lengths, relevant, ideal)
+    return RankedGains(gains, relevant, ideal)
 
 
 # --- kernels: each maps RankedGains and a cutoff to one score per query --------------------
