@@ -4,8 +4,11 @@
 Plain ``urllib``, no client package. Connection failures, time-outs, HTTP 429 and 5xx are
 retried with exponential back-off; anything else, or running out of tries, raises
 ``LlmError`` naming the server, so nothing is written. The API key (if any) is sent as a
-bearer token and never appears in messages or ``repr``. ``redact`` is the hook through
-which item text is cleaned before it leaves the process.
+bearer token and never appears in messages or ``repr`` (nor do credentials or a query
+string in the URL). ``redact`` is the hook through which item text and example queries
+are cleaned before they leave the process: by default ``PromptScrubber``, which replaces
+e-mail addresses, phone numbers, long digit runs and postcodes (``trawl.privacy``) and
+counts what it replaced; ``keep_text`` sends text as it is.
 """
 
 from __future__ import annotations
@@ -19,9 +22,11 @@ import urllib.error
 import urllib.request
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
+from urllib.parse import urlsplit
 
 from ..catalogue import Item
 from ..errors import TrawlError
+from ..privacy import KINDS, scrub
 from .question import destination_kind
 
 MAX_ITEM_CHARS = 1200  # enough for the gist; keeps prompts small for local models
@@ -40,8 +45,29 @@ class LlmError(TrawlError):
     """The chat-completions server could not be used."""
 
 
-def _identity(text: str) -> str:
+def keep_text(text: str) -> str:
+    """The ``redact`` hook that sends text unchanged (``--no-scrub``)."""
     return text
+
+
+class PromptScrubber:
+    """The default ``redact`` hook: personal data never reaches the chat server.
+
+    ``counts`` tallies replacements once per distinct text, so example queries sent
+    with every prompt are counted once.
+    """
+
+    def __init__(self) -> None:
+        self.counts = dict.fromkeys(KINDS, 0)
+        self._seen: dict[str, str] = {}
+
+    def __call__(self, text: str) -> str:
+        if text not in self._seen:
+            clean, counts = scrub(text)
+            for kind, n in counts.items():
+                self.counts[kind] += n
+            self._seen[text] = clean
+        return self._seen[text]
 
 
 @dataclass(frozen=True)
@@ -55,7 +81,7 @@ class LlmClient:
     retries: int = 3
     backoff: float = 1.0
     temperature: float = 0.7
-    redact: Callable[[str], str] = _identity
+    redact: Callable[[str], str] = field(default_factory=PromptScrubber, compare=False)
     sleep: Callable[[float], None] = field(default=time.sleep, repr=False, compare=False)
 
     @property
@@ -64,6 +90,38 @@ class LlmClient:
         if u.endswith("/chat/completions"):
             return u
         return u + ("/chat/completions" if u.endswith("/v1") else "/v1/chat/completions")
+
+    @property
+    def shown_endpoint(self) -> str:
+        """The endpoint for messages: without user:password@ or a query string, which
+        can carry credentials."""
+        try:
+            parts = urlsplit(self.endpoint)
+            host = parts.hostname or ""
+            port = f":{parts.port}" if parts.port else ""
+        except ValueError:
+            return "(the --llm-url given)"
+        query = "?..." if parts.query else ""
+        return f"{parts.scheme}://{host}{port}{parts.path}{query}" if host else "(the --llm-url given)"
+
+    def _hide(self, text: str) -> str:
+        """``text`` with the key and any credentials or query from the URL masked."""
+        try:
+            parts = urlsplit(self.url)
+            secrets = [self.api_key, parts.username, parts.password, parts.query]
+        except ValueError:
+            secrets = [self.api_key, self.url]
+        for secret in secrets:
+            if secret:
+                text = text.replace(secret, "***")
+        return text
+
+    @property
+    def scrubbed(self) -> dict[str, int] | None:
+        """Personal data replaced in prompts so far, by kind; None when not scrubbing."""
+        if isinstance(self.redact, PromptScrubber):
+            return dict(self.redact.counts)
+        return None
 
     def messages(self, item: Item) -> list[dict[str, str]]:
         kind = destination_kind(item.type)
@@ -93,25 +151,28 @@ class LlmClient:
         for attempt in range(self.retries + 1):
             if attempt:
                 self.sleep(self.backoff * 2 ** (attempt - 1))
-            req = urllib.request.Request(self.endpoint, data=body, headers=headers,
-                                         method="POST")
             try:
+                req = urllib.request.Request(self.endpoint, data=body, headers=headers,
+                                             method="POST")
                 with urllib.request.urlopen(req, timeout=self.timeout) as resp:
                     payload = resp.read()
             except urllib.error.HTTPError as exc:
                 last = f"HTTP {exc.code} {exc.reason}"
                 if exc.code in RETRY_STATUS:
                     continue
-                raise LlmError(f"chat server at {self.endpoint} refused the request: {last}; "
-                               "check --llm-model and --llm-url") from None
+                raise LlmError(f"chat server at {self.shown_endpoint} refused the request: "
+                               f"{last}; check --llm-model and --llm-url") from None
             except (urllib.error.URLError, socket.timeout, TimeoutError, ConnectionError) as exc:
                 reason = getattr(exc, "reason", exc)
                 last = ("timed out" if isinstance(reason, (socket.timeout, TimeoutError))
-                        else str(reason))
+                        else self._hide(str(reason)))
                 continue
-            return _content(self.endpoint, payload)
-        raise LlmError(f"chat server at {self.endpoint} unreachable after {self.retries + 1} "
-                       f"tries ({last}); start it or fix --llm-url")
+            except ValueError:  # http.client.InvalidURL and friends
+                raise LlmError(f"--llm-url {self.shown_endpoint} is not a usable http(s) URL; "
+                               "give e.g. http://127.0.0.1:8080/v1") from None
+            return _content(self.shown_endpoint, payload)
+        raise LlmError(f"chat server at {self.shown_endpoint} unreachable after "
+                       f"{self.retries + 1} tries ({last}); start it or fix --llm-url")
 
 
 def _content(endpoint: str, payload: bytes) -> str:
