@@ -332,3 +332,34 @@ def test_resumed_build_with_the_real_model_is_bit_identical(tmp_path, monkeypatc
                        batch_size=3, loader=real)
     assert (info.embedded, info.reused) == (40 - 16, 16)
     assert files_except_build(tmp_path / "idx") == files_except_build(tmp_path / "clean")
+
+
+def _write_many(folder: str, worker: int) -> None:
+    from trawl.retrievers.cache import EmbeddingCache
+
+    with EmbeddingCache(folder, "enc") as cache:
+        for batch in range(40):
+            keys = [f"k{(worker * 20 + batch * 3 + j) % 150}" for j in range(5)]
+            cache.put(keys, np.stack([np.full(4, int(k[1:]), np.float32) for k in keys]))
+
+
+def test_embedding_cache_stays_consistent_with_two_writers(tmp_path):
+    import multiprocessing
+
+    from trawl.retrievers.cache import EmbeddingCache
+
+    ctx = multiprocessing.get_context("spawn")
+    procs = [ctx.Process(target=_write_many, args=(str(tmp_path), w)) for w in (0, 1)]
+    for p in procs:
+        p.start()
+    for p in procs:
+        p.join(60)
+    assert [p.exitcode for p in procs] == [0, 0]
+    with EmbeddingCache(tmp_path, "enc") as cache:
+        expected = {f"k{(w * 20 + b * 3 + j) % 150}" for w in (0, 1) for b in range(40)
+                    for j in range(5)}
+        found = cache.get(sorted(expected) + ["absent"])
+        assert set(found) == expected
+        assert all(v.tolist() == [int(k[1:])] * 4 for k, v in found.items())
+    with EmbeddingCache(tmp_path, "other") as other:
+        assert other.get(["k1"]) == {}  # keys belong to one encoder fingerprint
