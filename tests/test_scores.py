@@ -190,3 +190,19 @@ def test_score_command_duplicate_run_line_is_a_located_error(files, tmp_path):
     assert res.exit_code == 2
     assert res.stderr == (f"error: {bad}:3: duplicate entry for query 'q1', item 'scr-topup' "
                           "(first on line 1)\n")
+
+
+def test_silver_judgments_are_marked_as_estimates(files, tmp_path):
+    silver = tmp_path / "made.qrels"
+    silver.write_text(files["qrels"].read_text())
+    plain = invoke(["score", silver, files["dense"], "-m", "hit@1"])
+    assert "estimate" not in plain.stdout
+    flagged = invoke(["score", silver, files["dense"], "-m", "hit@1", "--silver"])
+    assert flagged.stdout.splitlines()[-1].startswith(
+        f"note: {silver} holds silver (machine-made) judgments, so every figure above is an "
+        "estimate")
+    (tmp_path / "made.jsonl").write_text("{}\n")  # a `trawl synth` provenance file beside it
+    auto = invoke(["misses", silver, files["dense"], "-c", files["catalogue"], "--json"])
+    assert json.loads(auto.stdout)["silver"] is True
+    assert "holds silver" in invoke(["compare", silver, files["dense"], files["lexical"],
+                                     "-q"]).stdout

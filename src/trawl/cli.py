@@ -721,6 +721,32 @@ def _metrics(names: tuple[str, ...]):
     return parse_metrics(names or DEFAULT_METRICS)
 
 
+def silver_option(f):
+    return click.option("--silver", is_flag=True,
+                        help="Mark the figures as estimates from silver (machine-made) "
+                             "judgments; automatic when a `trawl synth` provenance file "
+                             "PREFIX.jsonl sits beside PREFIX.qrels.")(f)
+
+
+def _is_silver(qrels: str, flag: bool) -> bool:
+    from .scores import silver_provenance
+
+    return flag or silver_provenance(qrels) is not None
+
+
+def _emit_report(qrels: str, silver: bool, report: Any, as_json: bool, render) -> None:
+    """The report as JSON (with the judgments' path and kind) or as ``render()`` text."""
+    if as_json:
+        emit_json({"qrels": qrels, "silver": silver, **report.as_dict()})
+        return
+    click.echo(render())
+    if silver:
+        from .scores import silver_note
+
+        click.echo()
+        click.echo(silver_note(qrels))
+
+
 @main.command()
 @click.argument("qrels", type=click.Path(dir_okay=False))
 @click.argument("runs", nargs=-1, required=True, type=click.Path(dir_okay=False))
@@ -734,10 +760,11 @@ def _metrics(names: tuple[str, ...]):
 @click.option("--csv", "csv_path", type=click.Path(dir_okay=False), default=None,
               metavar="PATH", help="Write the table of means (one row per run, metric and "
                                    "type) to PATH as CSV.")
+@silver_option
 @json_option
 def score(qrels: str, runs: tuple[str, ...], catalogue: str | None, metrics: tuple[str, ...],
           resamples: int, seed: int, per_query_path: str | None, csv_path: str | None,
-          as_json: bool) -> None:
+          silver: bool, as_json: bool) -> None:
     """Score TREC runs against qrels: means over all queries and, with --catalogue, per
     destination type.
 
@@ -773,10 +800,8 @@ def score(qrels: str, runs: tuple[str, ...], catalogue: str | None, metrics: tup
 
         write_csv(csv_path, report.score_rows(), ["run", "metric", "type", "n", "mean",
                                                   "low", "high"])
-    if as_json:
-        emit_json({"qrels": qrels, **report.as_dict()})
-    else:
-        click.echo(render_scores(report, MAX_WARNINGS_SHOWN))
+    _emit_report(qrels, _is_silver(qrels, silver), report, as_json,
+                 lambda: render_scores(report, MAX_WARNINGS_SHOWN))
 
 
 def _write_rows(path: str, rows: list[dict[str, Any]], columns: list[str]) -> None:
@@ -812,11 +837,13 @@ def _write_rows(path: str, rows: list[dict[str, Any]], columns: list[str]) -> No
               help="One line per comparison with interval, p-values and effect size.")
 @click.option("--csv", "csv_path", type=click.Path(dir_okay=False), default=None,
               metavar="PATH", help="Write every comparison row to PATH as CSV.")
+@silver_option
 @json_option
 @quiet_option
 def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, catalogue: str | None,
             metrics: tuple[str, ...], resamples: int, seed: int, method: str, alpha: float,
-            long_table: bool, csv_path: str | None, as_json: bool, quiet: bool) -> None:
+            long_table: bool, csv_path: str | None, silver: bool, as_json: bool,
+            quiet: bool) -> None:
     """Compare runs with a baseline on the same queries: mean difference per metric,
     paired bootstrap interval, p-values from the paired bootstrap and a sign-flip
     randomisation test, Holm's correction over every comparison shown, and an effect
@@ -852,10 +879,8 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, catalogue: 
         from .tables import write_csv
 
         write_csv(csv_path, [r.as_dict() for r in comp.rows], CSV_COLUMNS)
-    if as_json:
-        emit_json({"qrels": qrels, **comp.as_dict()})
-    else:
-        click.echo(render_comparison(comp, long_table, MAX_WARNINGS_SHOWN))
+    _emit_report(qrels, _is_silver(qrels, silver), comp, as_json,
+                 lambda: render_comparison(comp, long_table, MAX_WARNINGS_SHOWN))
 
 
 @main.command()
@@ -870,9 +895,10 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, catalogue: 
               help="Queries TSV, to show the text of the worst queries.")
 @click.option("--csv", "csv_path", type=click.Path(dir_okay=False), default=None,
               metavar="PATH", help="Write the per-type table to PATH as CSV.")
+@silver_option
 @json_option
 def misses(qrels: str, run: str, catalogue: str, k: int, worst: int, queries_path: str | None,
-           csv_path: str | None, as_json: bool) -> None:
+           csv_path: str | None, silver: bool, as_json: bool) -> None:
     """Where a run fails, by destination type of the wanted item: hit@1, hit@k, misses,
     median rank of the first relevant item, the types of what came first instead, and
     the worst queries with the item that won.
@@ -898,10 +924,8 @@ def misses(qrels: str, run: str, catalogue: str, k: int, worst: int, queries_pat
         from .tables import write_csv
 
         write_csv(csv_path, [r.as_dict() for r in rep.rows], CSV_COLUMNS)
-    if as_json:
-        emit_json({"qrels": qrels, **rep.as_dict()})
-    else:
-        click.echo(render_misses(rep, MAX_WARNINGS_SHOWN))
+    _emit_report(qrels, _is_silver(qrels, silver), rep, as_json,
+                 lambda: render_misses(rep, MAX_WARNINGS_SHOWN))
 
 
 # --- the whole evaluation -------------------------------------------------------------------------
