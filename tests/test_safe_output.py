@@ -9,6 +9,7 @@ from __future__ import annotations
 import csv
 import json
 import threading
+from html.parser import HTMLParser
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from pathlib import Path
 
@@ -248,3 +249,83 @@ def test_review_xlsx_holds_text_not_formulas(review_inputs, tmp_path):
     strings = [c.value for c in cells if isinstance(c.value, str)]
     assert not [s for s in strings if s.startswith(FORMULA_STARTS)]
     assert not any(p in s for s in strings for p in PERSONAL)
+
+
+# --- report.html from hostile files, end to end ---------------------------------------------
+
+class PageParts(HTMLParser):
+    """Tags, attribute names and text of an HTML page, as a browser's parser sees them."""
+
+    def __init__(self) -> None:
+        super().__init__(convert_charrefs=True)
+        self.tags: set[str] = set()
+        self.attributes: set[str] = set()
+        self.text: list[str] = []
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.add(tag)
+        self.attributes.update(name for name, _ in attrs)
+
+    def handle_data(self, data):
+        self.text.append(data)
+
+
+def report_parts(path: Path) -> PageParts:
+    parts = PageParts()
+    parts.feed(path.read_text(encoding="utf-8"))
+    return parts
+
+
+HOSTILE_HTML = {"title": "<script>alert(1)</script>",
+                "title2": "Refunds </td></tr></table><img src=x onerror=alert(2)>",
+                "type": "<b>faq</b>", "id": "a<i>&\"'",
+                "query": "\"><img src=x onerror=alert(4)> lost bag",
+                "report": "</title><script>alert(5)</script>"}
+
+
+def eval_inputs(tmp_path: Path, hostile: bool) -> list:
+    h = HOSTILE_HTML if hostile else {"title": "Lost property", "title2": "Refunds",
+                                      "type": "faq", "id": "rf-2", "query": "lost bag",
+                                      "report": "Plain"}
+    rows = [{"id": "lp-1", "type": "form", "title": h["title"], "text": "Report lost property."},
+            {"id": h["id"], "type": h["type"], "title": h["title2"], "text": "Refund a pass."},
+            {"id": "rt-3", "type": "screen", "title": "Trip planner", "text": "Plan a journey."},
+            {"id": "fa-4", "type": "form", "title": "Fare capping", "text": "Daily fare caps."}]
+    folder = tmp_path / ("hostile" if hostile else "plain")
+    folder.mkdir()
+    (folder / "c.jsonl").write_text("".join(json.dumps(r) + "\n" for r in rows))
+    (folder / "q.tsv").write_text(f"q1\t{h['query']} mara.quillen@example.org\n"
+                                  "q2\trefund pass call +44 7700 900123\nq3\tplan a journey\n")
+    (folder / "j.qrels").write_text(f"q1 0 lp-1 2\nq2 0 {h['id']} 2\nq3 0 rt-3 1\nq3 0 fa-4 2\n")
+    return [folder / "c.jsonl", folder / "q.tsv", folder / "j.qrels", "-e", "bm25", "-e",
+            "loose=bm25;k1=0.9", "--resamples", "200", "-q", "--title", h["report"], "-o",
+            folder / "out"]
+
+
+def test_report_html_shows_hostile_catalogue_and_query_text_as_text(tmp_path):
+    assert invoke(["eval", *eval_inputs(tmp_path, hostile=False)]).exit_code == 0
+    result = invoke(["eval", *eval_inputs(tmp_path, hostile=True)])
+    assert result.exit_code == 0, result.output
+    plain = report_parts(tmp_path / "plain" / "out" / "report.html")
+    page = report_parts(tmp_path / "hostile" / "out" / "report.html")
+    assert page.tags == plain.tags and "script" not in page.tags  # no markup got in
+    assert page.attributes == plain.attributes
+    assert not [a for a in page.attributes if a.startswith("on")]
+    text = "".join(page.text)
+    for where in ("title", "query", "report"):  # each shown literally to the reader
+        assert HOSTILE_HTML[where] in text, where
+
+
+def test_report_query_text_can_be_scrubbed(tmp_path):
+    args = eval_inputs(tmp_path, hostile=True)  # q1 is among the worst queries shown
+    out = args[-1]
+    result = invoke(["eval", *args, "--scrub"])
+    assert result.exit_code == 0, result.output
+    assert "scrubbed from query text in the report: 1 email, 1 phone" in result.stdout
+    written = "".join(p.read_text(encoding="utf-8") for p in out.rglob("*")
+                      if p.is_file() and p.suffix in (".html", ".json", ".csv"))
+    assert "mara.quillen@example.org" not in written and "7700 900123" not in written
+    assert "lost bag [email]" in written  # the text is still shown, without the address
+    unscrubbed = invoke(["eval", *args[:-1], tmp_path / "again"])
+    assert unscrubbed.exit_code == 0
+    assert "mara.quillen@example.org" in (tmp_path / "again" / "report.html").read_text()

@@ -975,13 +975,16 @@ def _finish(result, as_json: bool) -> None:
               help="Embedding cache folder (default: $TRAWL_CACHE_DIR or ~/.cache/trawl).")
 @template_option
 @click.option("--title", default=None, help="Title of the report.")
+@click.option("--scrub", is_flag=True,
+              help="Replace e-mails, phone numbers, long digit runs and postcodes in the "
+                   "query text the report and tables show (searches use the original).")
 @quiet_option
 @json_option
 def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, ...],
                  output: str, fuse: tuple[str, ...], baseline: str | None, k: int,
                  metrics: tuple[str, ...], resamples: int, seed: int, judged_by: str,
                  ann: str, cache_dir: str | None, template: str | None, title: str | None,
-                 quiet: bool, as_json: bool) -> None:
+                 scrub: bool, quiet: bool, as_json: bool) -> None:
     """Index, search, score, compare and analyse misses for every encoder in one go,
     and write report.html.
 
@@ -1006,8 +1009,10 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
     result = evaluate(catalogue, [js], encoders, output, fuse=fuse, baseline=baseline, k=k,
                       metrics=metrics or DEFAULT_METRICS, resamples=resamples, seed=seed,
                       ann=ann, cache_dir=cache_dir, template=template, title=title,
-                      quiet=quiet, notify=_step(quiet or as_json))
+                      scrub_queries=scrub, quiet=quiet, notify=_step(quiet or as_json))
     _finish(result, as_json)
+    if scrub and not as_json:
+        click.echo(result.bundle["setup"]["notes"]["privacy"])
 
 
 @main.command()

@@ -30,6 +30,8 @@ from .errors import (EncoderMismatchError, InputError, StaleIndexError, TrawlErr
 from .files import atomic_write, write_text_atomic
 from .judgments import Qrels, read_qrels
 from .metrics import DEFAULT_METRICS, parse_metrics
+from .privacy import KINDS as PRIVACY_KINDS
+from .privacy import scrub
 from .queries import read_queries
 from .retrievers import EncoderSpec, default_loader, parse_spec
 from .retrievers.fusion import RRF_K, reciprocal_rank_fusion
@@ -278,12 +280,15 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
              seed: int = 0, alpha: float = 0.05, ann: str = "exact",
              cache_dir: str | Path | None = None, template: str | None = None,
              agreement: tuple[str, str] | None = None, title: str | None = None,
-             quiet: bool = False, notify: Notify | None = None) -> EvalResult:
+             scrub_queries: bool = False, quiet: bool = False,
+             notify: Notify | None = None) -> EvalResult:
     """Index, search (timed), fuse, score, compare, tabulate misses and write the report.
 
     ``encoders`` are specs (``NAME=SPEC`` to name one); ``fuse`` entries join system
     names with ``+``. The baseline defaults to the first system. ``agreement`` names two
-    judgment sets whose system rankings are compared.
+    judgment sets whose system rankings are compared. ``scrub_queries`` replaces personal
+    data (``privacy.scrub``) in the query text the report and tables show; searches
+    still use the original text.
     """
     from .agreement import agree
     from .bench import measure_search
@@ -334,6 +339,7 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
             say(f"  reused {out / 'indexes' / s.name}")
 
     runs_by_set: dict[str, dict[str, Run]] = {}
+    scrubbed = dict.fromkeys(PRIVACY_KINDS, 0)
     latency_by_set: dict[str, dict[str, dict[str, Any]]] = {}
     evaluations = []
     cpu_note = ""
@@ -364,8 +370,14 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         scores = score_runs(ld.qrels, ordered, metric_names, cat, resamples, seed, alpha)
         comparison = compare_scores(scores, resamples, seed, alpha=alpha) if len(ordered) > 1 \
             else None
+        shown = dict(ld.queries)
+        if scrub_queries:
+            for qid, text in shown.items():
+                shown[qid], found = scrub(text)
+                for kind, n in found.items():
+                    scrubbed[kind] += n
         misses = [miss_table(ld.qrels, runs[n], cat, min(MISS_K, depth), WORST_QUERIES,
-                             ld.queries) for n in names]
+                             shown) for n in names]
         _write_tables(folder, scores, comparison, misses)
         runs_by_set[js.name] = runs
         latency_by_set[js.name] = latency
@@ -401,12 +413,20 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         "evaluations": evaluations,
         "agreement": agreement_entry,
     }
+    if scrub_queries:
+        bundle["setup"]["scrubbed"] = scrubbed
+        bundle["setup"]["notes"]["privacy"] = scrub_note(scrubbed)
     _write_json(out / "results.json", bundle)
     from .report.html import render_html
 
     report = out / "report.html"
     write_text_atomic(report, render_html(bundle))
     return EvalResult(out, report, bundle, time.perf_counter() - started)
+
+
+def scrub_note(counts: Mapping[str, int]) -> str:
+    found = ", ".join(f"{n} {kind}" for kind, n in counts.items() if n) or "nothing found"
+    return f"scrubbed from query text in the report: {found}"
 
 
 def _fused_throughput(latency: Mapping[str, Mapping[str, Any]], parts: Sequence[str]) -> float:
