@@ -122,6 +122,8 @@ def compare_scores(report: ScoreReport, resamples: int = 10000, seed: int = 0,
                    quiet: bool = True) -> Comparison:
     """Compare the runs of a score report with its first run."""
     runs, metrics = report.runs, report.metrics
+    if len(runs) < 2:
+        raise UsageError("comparing needs at least two runs (a baseline and one more)")
     values = report.values
     others = range(1, len(runs))
     groups = report.groups()
