@@ -539,3 +539,56 @@ def test_unreadable_paths_are_clean_errors(tmp_path):
     assert result.exit_code == 2
     assert result.stderr.startswith(f"error: {too_long}: cannot read catalogue: ")
     assert len(result.stderr.splitlines()) == 1
+
+
+# --- review sheets: real exports, filled in, then mangled -------------------------------------
+
+@pytest.fixture(scope="module")
+def sheets(tmp_path_factory):
+    """A catalogue and a filled review sheet in both formats, as a reviewer returns them."""
+    from trawl.review import export_sheet
+
+    root = tmp_path_factory.mktemp("sheets")
+    cat_path = root / "c.jsonl"
+    cat_path.write_text("".join(json.dumps({"id": i, "type": "faq", "title": t, "text": t}) + "\n"
+                                for i, t in [("007", "=SUM(A1) fares"), ("b", "שלום 😀"),
+                                             ("c", "Refund\tform")]), encoding="utf-8")
+    cat = load_catalogue(cat_path)
+    qrels = {"q1": {"007": 2, "b": 1}, "q2": {"c": 2}}
+    queries = {"q1": "fare caps 😀", "q2": "+refund"}
+    export_sheet(qrels, queries, cat, root / "s.csv")
+    text = (root / "s.csv").read_text(encoding="utf-8-sig")
+    filled = re.sub(r",,(\r?\n)", r",ok,\1", text)  # every verdict cell filled
+    (root / "s.csv").write_text(filled, encoding="utf-8-sig", newline="")
+    export_sheet(qrels, queries, cat, root / "s.xlsx")
+    return cat, (root / "s.csv").read_bytes(), (root / "s.xlsx").read_bytes()
+
+
+@SETTINGS
+@given(splices=st.lists(st.tuples(st.floats(0, 1), fragment), max_size=4),
+       cut=st.none() | st.floats(0, 1))
+def test_mangled_review_sheets_load_or_fail_cleanly(scratch, sheets, splices, cut):
+    from trawl.review import import_sheets
+
+    cat, raw, _ = sheets
+    for at, frag in splices:
+        pos = int(at * len(raw))
+        raw = raw[:pos] + frag + raw[pos:]
+    if cut is not None:
+        raw = raw[:int(cut * len(raw))]
+    path = scratch / "sheet.csv"
+    path.write_bytes(raw)
+    loads_or_fails_cleanly(lambda p: import_sheets([p], cat), path, raw)
+
+
+@settings(SETTINGS, max_examples=40)
+@given(at=st.floats(0, 1), junk=st.binary(min_size=1, max_size=64), truncate=st.booleans())
+def test_corrupted_xlsx_sheets_fail_cleanly(scratch, sheets, at, junk, truncate):
+    from trawl.review import import_sheets
+
+    cat, _, raw = sheets
+    pos = int(at * len(raw))
+    raw = raw[:pos] if truncate else raw[:pos] + junk + raw[pos + len(junk):]
+    path = scratch / "sheet.xlsx"
+    path.write_bytes(raw)
+    loads_or_fails_cleanly(lambda p: import_sheets([p], cat), path, b"")

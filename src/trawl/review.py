@@ -458,6 +458,7 @@ def _write_xlsx(path: Path, notes: list[str], rows: list[list[str]],
 def _xlsx_records(path: Path) -> list[tuple[int, list[str]]]:
     """Rows of the first worksheet as text cells, numbered like the spreadsheet shows."""
     import zipfile
+    import zlib
 
     from openpyxl import load_workbook
     from openpyxl.utils.exceptions import InvalidFileException
@@ -472,9 +473,13 @@ def _xlsx_records(path: Path) -> list[tuple[int, list[str]]]:
                     for n, row in enumerate(ws.iter_rows(values_only=True), start=1)]
         finally:
             wb.close()
-    except (zipfile.BadZipFile, InvalidFileException, KeyError, OSError, ValueError,
-            IndexError) as exc:
-        raise InputError(path, f"cannot read the .xlsx sheet: {exc}".rstrip()) from None
+    except (zipfile.BadZipFile, zlib.error, EOFError, SyntaxError, InvalidFileException,
+            KeyError, OSError, ValueError, IndexError, TypeError, NotImplementedError,
+            RuntimeError) as exc:
+        # a damaged workbook fails deep inside zip (odd compression flags, "encrypted"
+        # entries), zlib or XML parsing (SyntaxError is the base of the XML parsers' errors)
+        detail = " ".join(str(exc).split())
+        raise InputError(path, f"cannot read the .xlsx sheet: {detail}".rstrip()) from None
 
 
 def _xlsx_text(v: Any) -> str:
