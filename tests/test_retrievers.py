@@ -110,3 +110,13 @@ def test_bm25_parameters_change_scores():
     flat = LexicalIndex.build(docs, parse_spec("bm25;b=0")).scores(["bus"])[0]
     tuned = LexicalIndex.build(docs, parse_spec("bm25")).scores(["bus"])[0]
     assert flat[1] > tuned[1]  # no length normalisation: the long doc is not penalised
+
+
+@pytest.mark.parametrize("kind", ["st", "static"])
+def test_unloadable_model_folder_is_a_user_error(tmp_path, kind):
+    from trawl.retrievers import EncoderLoader
+
+    (tmp_path / "config.json").write_text("{}")
+    encoder = EncoderLoader().encoder(parse_spec(f"{kind}:{tmp_path}"))
+    with pytest.raises(UsageError, match=f"cannot load a .* model from {tmp_path}: "):
+        encoder.encode_documents(["late fees"], 1)

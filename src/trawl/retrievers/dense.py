@@ -15,6 +15,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .. import bundled
+from ..errors import UsageError
 from . import EncoderLoader, EncoderSpec, normalise
 
 if TYPE_CHECKING:
@@ -28,7 +29,11 @@ def load_sentence_transformer(path: str) -> SentenceTransformer:
 
     transformers.logging.set_verbosity_error()   # weight-load reports are noise here
     transformers.logging.disable_progress_bar()
-    model = SentenceTransformer(path, device="cpu", local_files_only=True)
+    try:
+        model = SentenceTransformer(path, device="cpu", local_files_only=True)
+    except (OSError, ValueError) as exc:
+        raise UsageError(f"cannot load a sentence-transformers model from {path}: "
+                         f"{str(exc).splitlines()[0]}") from None
     model.eval()
     return model
 

@@ -11,13 +11,19 @@ from typing import Any
 
 import numpy as np
 
+from ..errors import UsageError
 from . import EncoderLoader, EncoderSpec, normalise
 
 
 def load_static_model(path: str) -> Any:
     from model2vec import StaticModel
 
-    return StaticModel.from_pretrained(path)
+    try:
+        return StaticModel.from_pretrained(path)
+    except (OSError, ValueError) as exc:
+        raise UsageError(f"cannot load a model2vec static model from {path}: "
+                         f"{str(exc).splitlines()[0]}; make one with `trawl distill -o DIR`"
+                         ) from None
 
 
 class StaticEncoder:
