@@ -109,7 +109,7 @@ def cohen_kappa(a: Sequence[Hashable], b: Sequence[Hashable], weights: str | Non
 
 def kendall_tau_b(x: Sequence[float], y: Sequence[float]) -> float:
     """Kendall's tau-b (ties in either ranking reduce the denominator); NaN if either
-    sequence is constant."""
+    sequence is constant. Meant for short sequences such as system rankings (all pairs)."""
     return float(_tau_b_rows(np.asarray(x, float)[None, :], np.asarray(y, float)[None, :])[0])
 
 

@@ -39,7 +39,7 @@ from typing import Any
 import numpy as np
 
 from .agreement import Proportion, cohen_kappa, wilson_interval
-from .catalogue import Catalogue
+from .catalogue import Catalogue, Item
 from .errors import InputError, UsageError
 from .files import atomic_write, read_text
 from .judgments import Qrels
@@ -347,7 +347,7 @@ def _rows_for_query(qid: str, text: str, style: str, judged: Mapping[str, int],
     return rows, unknown
 
 
-def _row(qid: str, text: str, style: str, item: Any, reason: str,
+def _row(qid: str, text: str, style: str, item: Item, reason: str,
          grade: int | None) -> SheetRow:
     return SheetRow(qid, text, style, item.id, item.type, _one_line(item.title),
                     _snippet(item.text), item.deeplink, reason, grade)
