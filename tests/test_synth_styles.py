@@ -12,12 +12,12 @@ from trawl.errors import InputError, UsageError
 from trawl.synth import read_lexicon, synthesise, write_silver
 from trawl.synth.corpus import build_corpus
 from trawl.synth.grading import Draft, merge_near_duplicates
-from trawl.synth.keyword import keyword_query, salient_terms
+from trawl.synth.keyword import keyword_query, salient_terms, title_phrase
 from trawl.synth.lexicon import Lexicon
 from trawl.synth.overlap import OverlapProfile
 from trawl.synth.paraphrase import Rewording, paraphrases
 from trawl.synth.question import FORM, INFORMATIONAL, SCREEN, destination_kind, question_query
-from trawl.synth.synthesise import parse_mix, sample_items
+from trawl.synth.compose import parse_mix, sample_items
 
 ITEMS = (
     Item("art-1", "article", "Renewing borrowed books",
@@ -216,3 +216,36 @@ def test_summary_rows_match_provenance():
             assert r["mean_overlap"] == pytest.approx(
                 sum(p["overlap"] for p in recs) / len(recs), abs=1e-3)
     assert json.loads(json.dumps(s.as_dict())) == s.as_dict()
+
+
+def test_title_phrase_is_a_run_of_title_words_around_the_most_salient():
+    long = Item("art-9", "article",
+                "Borrowing rules for reference books, maps and rare local history journals",
+                "Reference books stay in the building.")
+    cat = Catalogue("t", ITEMS + (long,))
+    corpus = build_corpus(cat)
+    title = list(corpus.words["art-9"].title)
+    top = next(w for w, _ in corpus.salience("art-9") if w in title)
+    for seed in range(30):
+        run = title_phrase(long, corpus, random.Random(seed))
+        assert 3 <= len(run) <= 5 and top in run
+        k = title.index(run[0])
+        assert title[k:k + len(run)] == run  # contiguous, in title order
+    short = title_phrase(ITEMS[1], build_corpus(CAT), random.Random(0))
+    assert short == ["overdue", "fines"]
+
+
+def test_recurring_word_pairs_become_phrases():
+    items = tuple(Item(f"i{k}", "faq", f"Smart card question {k}", "Your smart card works.")
+                  for k in range(3)) + (Item("x", "faq", "Card smart", "Other words."),)
+    corpus = build_corpus(Catalogue("p", items))
+    assert ("smart", "card") in corpus.phrases  # in 3 items
+    assert ("card", "smart") not in corpus.phrases  # in 1 item
+    assert ("card", "works") in corpus.phrases  # adjacent in the three bodies
+    assert ("question", "0") not in corpus.phrases  # digits are not content words
+
+
+def test_default_mix_falls_back_without_wordnet():
+    s = synthesise(CAT, wordnet=None, profile=NO_PROFILE, quiet=True)
+    assert set(s.skipped_styles) == {"paraphrase"}
+    assert {p["style"] for p in s.provenance} <= {"question", "keyword"}

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import random
 from pathlib import Path
 
 import pytest
@@ -54,3 +55,23 @@ def test_real_wordnet_first_senses():
     # noun.exc lists "geese goose"; verb "cancel" first sense: call off, scratch, scrub
     assert wn.base_forms("geese", "n") == ["goose"]
     assert wn.synonyms("cancelled", "v")[:3] == ["call off", "scratch", "scrub"]
+
+
+@pytest.mark.skipif(REAL is None, reason="WordNet 3.0 not installed (Debian wordnet-base)")
+def test_usual_part_of_speech_and_paraphrase_rules():
+    from trawl.synth.paraphrase import Rewording
+
+    wn = load_wordnet()
+    # tagsense_cnt in WordNet 3.0's index files: "card" is mostly a noun, "quickly" an
+    # adverb, "cancel" a verb
+    assert (wn.usual_pos("card"), wn.usual_pos("quickly"), wn.usual_pos("cancel")) == \
+        ("n", "r", "v")
+    rw = Rewording(wn)
+    # first-sense noun synonyms of "rubbish" that are common words (wordfreq Zipf >= 4)
+    assert "trash" in rw.alternatives("rubbish")
+    assert rw.alternatives("cancel") == []  # verbs are not swapped
+    # "boundary layer" is a WordNet noun lemma, so it is kept whole even at swap rate 1
+    out = rw.reword("boundary layer rubbish", 1.0, random.Random(0))
+    assert out.startswith("boundary layer ") and not out.endswith("rubbish")
+    protected = Rewording(wn, phrases=frozenset({("rubbish", "bin")}))
+    assert protected.reword("rubbish bin", 1.0, random.Random(0)) == "rubbish bin"

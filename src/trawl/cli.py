@@ -449,7 +449,7 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
     from .queries import read_queries
     from .synth import LlmClient, load_wordnet, read_lexicon, synthesise, write_silver
     from .synth.llm import PromptScrubber, keep_text
-    from .synth.synthesise import parse_mix
+    from .synth.compose import parse_mix
 
     mix = parse_mix(styles)
     if (llm_url is None) != (llm_model is None):

@@ -8,7 +8,7 @@ from .calibrate import calibrate_profile
 from .lexicon import Lexicon, read_lexicon
 from .llm import LlmClient, LlmError
 from .overlap import OverlapProfile, overlap
-from .synthesise import DEFAULT_PROFILE, STYLES, SilverSet, synthesise, write_silver
+from .compose import DEFAULT_PROFILE, STYLES, SilverSet, synthesise, write_silver
 from .wordnet import load_wordnet
 
 __all__ = ["DEFAULT_PROFILE", "STYLES", "Lexicon", "LlmClient", "LlmError", "OverlapProfile",

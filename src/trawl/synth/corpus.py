@@ -8,14 +8,17 @@ from __future__ import annotations
 
 import math
 from collections import Counter
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Mapping
 
 from ..catalogue import Catalogue, Item
-from .text import content_words, stem
+from .text import content_words, is_content, stem, words
+from .wordnet import WordNet
 
 
+ACTION_WEIGHT = 0.3  # common practice, no source: queries name things more than actions
+PHRASE_MIN_ITEMS = 3  # a word pair in 3+ items is a term of the trade; common practice, no source
 TITLE_BOOST = 3.0  # a title word counts like three body mentions; common practice, no source
 
 
@@ -33,6 +36,12 @@ class Corpus:
     n_items: int
     df: Mapping[str, int]  # stem -> number of items containing it
     words: Mapping[str, ItemWords]  # item id -> its words
+    weight: Mapping[str, float] = field(default_factory=dict)  # word -> part-of-speech weight
+    phrases: frozenset[tuple[str, str]] = frozenset()  # recurring two-word terms
+
+    def known(self, word: str) -> bool:
+        """Whether the catalogue uses ``word`` (by stem) anywhere."""
+        return stem(word) in self.df
 
     def idf(self, word: str) -> float:
         """Smoothed inverse document frequency of a word's stem (0 for words in every item)."""
@@ -45,14 +54,16 @@ class Corpus:
 
         Titles name what an item is about, so a title word outranks a body word used
         once; words with digits count only when in the title (prices, dates and ids in
-        body text are rarely what people search for)."""
+        body text are rarely what people search for); words usually used as verbs or
+        adverbs count less (``weight``), since people search for things, not actions."""
         w = self.words[item_id]
         title = set(w.title)
         tf: Counter[str] = Counter(w.body)
         first: dict[str, int] = {}
         for k, word in enumerate(w.title + w.body):
             first.setdefault(word, k)
-        scored = [(word, (tf[word] + (title_boost if word in title else 0.0)) * self.idf(word))
+        scored = [(word, (tf[word] + (title_boost if word in title else 0.0)) * self.idf(word)
+                   * self.weight.get(word, 1.0))
                   for word in first
                   if word in title or not any(c.isdigit() for c in word)]
         return sorted(scored, key=lambda p: (-p[1], first[p[0]]))
@@ -64,9 +75,32 @@ def item_words(item: Item) -> ItemWords:
     return ItemWords(title, body, frozenset(stem(x) for x in title + body))
 
 
-def build_corpus(catalogue: Catalogue) -> Corpus:
+def build_corpus(catalogue: Catalogue, wordnet: WordNet | None = None) -> Corpus:
+    """Statistics of ``catalogue``; with WordNet, words whose usual part of speech is
+    verb or adverb get weight ``ACTION_WEIGHT`` in salience."""
     words = {it.id: item_words(it) for it in catalogue.items}
     df: Counter[str] = Counter()
     for w in words.values():
         df.update(w.stems)
-    return Corpus(len(catalogue), MappingProxyType(dict(df)), MappingProxyType(words))
+    pairs: Counter[tuple[str, str]] = Counter()
+    for it in catalogue.items:
+        pairs.update(set(_adjacent_pairs(f"{it.title}\n{it.text}")))
+    phrases = frozenset(p for p, n in pairs.items() if n >= PHRASE_MIN_ITEMS)
+    weight: dict[str, float] = {}
+    if wordnet is not None:
+        for w in words.values():
+            for word in w.title + w.body:
+                if word not in weight:
+                    weight[word] = ACTION_WEIGHT if wordnet.usual_pos(word) in ("v", "r") else 1.0
+    return Corpus(len(catalogue), MappingProxyType(dict(df)), MappingProxyType(words),
+                  MappingProxyType(weight), phrases)
+
+
+def _adjacent_pairs(text: str) -> list[tuple[str, str]]:
+    """Pairs of content words that follow each other directly (no stop word between),
+    within one line; candidates for multi-word terms such as "boundary layer"."""
+    out = []
+    for line in text.split("\n"):
+        toks = words(line)
+        out.extend((a, b) for a, b in zip(toks, toks[1:]) if is_content(a) and is_content(b))
+    return out

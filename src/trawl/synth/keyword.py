@@ -50,3 +50,25 @@ def salient_terms(item: Item, corpus: Corpus, rng: random.Random, n: int | None 
 
 def keyword_query(item: Item, corpus: Corpus, rng: random.Random) -> str:
     return " ".join(salient_terms(item, corpus, rng))
+
+
+MAX_PHRASE = 5  # longest run of title words a query keeps
+
+
+def title_phrase(item: Item, corpus: Corpus, rng: random.Random) -> list[str]:
+    """The title's content words in order (a run of at most MAX_PHRASE around its most
+    salient word when longer); salient terms when the title has no content words.
+
+    Titles are written for people to read, so their words hang together; a query built
+    from them stays meaningful after paraphrasing, where a bag of rare words does not
+    (and would hand every comparison to exact-word matching)."""
+    title = list(dict.fromkeys(corpus.words[item.id].title))
+    if not title:
+        return salient_terms(item, corpus, rng)
+    if len(title) <= MAX_PHRASE:
+        return title
+    rank = {w: k for k, (w, _) in enumerate(corpus.salience(item.id))}
+    anchor = min(range(len(title)), key=lambda k: rank.get(title[k], len(rank)))
+    size = rng.randint(3, MAX_PHRASE)
+    start = rng.randint(max(0, anchor - size + 1), min(anchor, len(title) - size))
+    return title[start:start + size]

@@ -12,6 +12,7 @@ whose overlap with the item fits the target profile.
 from __future__ import annotations
 
 import random
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from .lexicon import EMPTY, Lexicon
@@ -19,7 +20,8 @@ from .text import is_content, stem, words
 from .wordnet import WordNet
 
 MIN_ZIPF = 4.0  # about once per 100,000 words of ordinary text or more often
-POS_ORDER = ("n", "v", "a", "r")
+SWAP_POS = ("n", "a")  # verb synonyms in WordNet are mostly phrasal and off-sense
+MAX_WORDS = 2  # longer WordNet lemmas ("force per unit area") read like definitions
 
 
 @dataclass(frozen=True)
@@ -29,10 +31,14 @@ class Rewording:
     wordnet: WordNet | None = None
     lexicon: Lexicon = EMPTY
     min_zipf: float = MIN_ZIPF
+    hypernyms: bool = False
+    phrases: frozenset[tuple[str, str]] = frozenset()  # kept whole: swapping half a term breaks it
+    known: Callable[[str], bool] | None = None  # words the catalogue's domain uses
     _memo: dict[str, list[str]] = field(default_factory=dict, compare=False, repr=False)
 
     def alternatives(self, word: str) -> list[str]:
-        """Common synonyms, then hypernyms, of one word (no lexicon)."""
+        """Common synonyms, then (for nouns) hypernyms, of one word in the part of speech
+        it is usually used in (no lexicon)."""
         if self.wordnet is None:
             return []
         if word not in self._memo:
@@ -42,15 +48,20 @@ class Rewording:
     def _alternatives(self, word: str) -> list[str]:
         from wordfreq import zipf_frequency
 
-        own = {stem(word)} | {b for p in POS_ORDER for b in self.wordnet.base_forms(word, p)}
+        wn = self.wordnet
+        pos = wn.usual_pos(word)
+        if pos not in SWAP_POS:
+            return []
+        own = {stem(word)} | set(wn.base_forms(word, pos))
         out: list[str] = []
-        for related in (self.wordnet.synonyms, self.wordnet.hypernyms):
-            for pos in POS_ORDER:
-                for alt in related(word, pos, 1):
-                    parts = alt.split()
-                    if (alt not in out and not own & {stem(p) for p in parts} | set(parts)
-                            and all(zipf_frequency(p, "en") >= self.min_zipf for p in parts)):
-                        out.append(alt)
+        related = wn.synonyms(word, pos) + (wn.hypernyms(word, pos) if self.hypernyms else [])
+        for alt in related:
+            parts = alt.split()
+            if (alt not in out and len(parts) <= MAX_WORDS
+                    and not own & ({stem(p) for p in parts} | set(parts))
+                    and all(zipf_frequency(p, "en") >= self.min_zipf for p in parts)
+                    and (self.known is None or all(self.known(p) for p in parts))):
+                out.append(alt)
         return out
 
     def reword(self, query: str, rate: float, rng: random.Random) -> str:
@@ -71,6 +82,12 @@ class Rewording:
                     break
             else:
                 w = toks[k]
+                if k + 1 < len(toks) and (w, toks[k + 1]) in self.phrases or \
+                        self.wordnet is not None and k + 1 < len(toks) and \
+                        self.wordnet.senses(f"{w} {toks[k + 1]}", "n"):
+                    out.extend(toks[k:k + 2])
+                    k += 2
+                    continue
                 alts = self.alternatives(w) if is_content(w) else []
                 out.append(rng.choice(alts) if alts and rng.random() < rate else w)
                 k += 1

@@ -3,7 +3,7 @@
 
 Destination types are free strings, so a type is read as a *task* destination when its
 name contains one of TASK_HINTS (screen, form, page, settings, ...); everything else is
-informational. The topic words come from the keyword style's salience ranking.
+informational. The topic words come from the title or the keyword style's salience ranking.
 """
 
 from __future__ import annotations
@@ -12,7 +12,7 @@ import random
 
 from ..catalogue import Item
 from .corpus import Corpus
-from .keyword import salient_terms
+from .keyword import salient_terms, title_phrase
 
 SCREEN_HINTS = ("screen", "page", "view", "tab", "settings", "dashboard", "menu", "app")
 FORM_HINTS = ("form", "request", "application", "claim", "report", "booking", "wizard")
@@ -31,6 +31,9 @@ FORM = (
 )
 
 
+TITLE_SHARE = 0.5  # half the questions are about the title's topic, half about salient details
+
+
 def destination_kind(type_name: str) -> str:
     """'screen', 'form' or 'info' for a free-text destination type."""
     t = type_name.lower()
@@ -45,7 +48,8 @@ TEMPLATES = {"info": INFORMATIONAL, "screen": SCREEN, "form": FORM}
 
 
 def question_query(item: Item, corpus: Corpus, rng: random.Random) -> str:
-    terms = salient_terms(item, corpus, rng, n=rng.choice((1, 2, 2, 3)))
+    terms = (title_phrase(item, corpus, rng) if rng.random() < TITLE_SHARE
+             else salient_terms(item, corpus, rng, n=rng.choice((1, 2, 2, 3))))
     if not terms:
         return ""
     template = rng.choice(TEMPLATES[destination_kind(item.type)])

@@ -52,18 +52,37 @@ class WordNet:
             self._index[pos] = ([ln.split(b" ", 1)[0] for ln in lines], lines)
             self._data[pos] = _read(folder / f"data.{name}")
             self.exceptions[pos] = _read_exc(folder / f"{name}.exc")
-        self._senses: dict[tuple[str, str], tuple[int, ...]] = {}
+        self._senses: dict[tuple[str, str], tuple[int, tuple[int, ...]]] = {}
         self._synsets: dict[tuple[str, int], Synset | None] = {}
 
     def senses(self, lemma: str, pos: str) -> tuple[int, ...]:
         """Synset offsets of ``lemma`` (WordNet's spelling: spaces as '_'), most frequent first."""
+        return self._entry(lemma, pos)[1]
+
+    def tagged(self, lemma: str, pos: str) -> int:
+        """How often ``lemma`` was seen in this part of speech in WordNet's tagged corpus
+        (``tagsense_cnt``), which tells a word's usual part of speech."""
+        return self._entry(lemma, pos)[0]
+
+    def usual_pos(self, word: str) -> str | None:
+        """The part of speech ``word`` is most often used in (ties: n, v, a, r)."""
+        best, best_count = None, -1
+        for pos in POS_FILES:
+            bases = self.base_forms(word, pos)
+            if bases:
+                count = self.tagged(bases[0], pos)
+                if count > best_count:
+                    best, best_count = pos, count
+        return best
+
+    def _entry(self, lemma: str, pos: str) -> tuple[int, tuple[int, ...]]:
         key = (lemma, pos)
         if key not in self._senses:
             keys, lines = self._index[pos]
             raw = lemma.replace(" ", "_").encode()
             k = bisect.bisect_left(keys, raw)
             self._senses[key] = (_parse_index(lines[k].decode()) if k < len(keys)
-                                 and keys[k] == raw else ())
+                                 and keys[k] == raw else (0, ()))
         return self._senses[key]
 
     def synset(self, pos: str, offset: int) -> Synset | None:
@@ -131,11 +150,11 @@ def _read(path: Path) -> bytes:
     return path.read_bytes() if path.is_file() else b""
 
 
-def _parse_index(line: str) -> tuple[int, ...]:
+def _parse_index(line: str) -> tuple[int, tuple[int, ...]]:
     # lemma pos synset_cnt p_cnt [ptr_symbol...] sense_cnt tagsense_cnt offset...
     f = line.split()
     n_syn, n_ptr = int(f[2]), int(f[3])
-    return tuple(int(o) for o in f[4 + n_ptr + 2:][:n_syn])
+    return int(f[4 + n_ptr + 1]), tuple(int(o) for o in f[4 + n_ptr + 2:][:n_syn])
 
 
 def _parse_data(line: str) -> Synset:
