@@ -54,7 +54,7 @@ def sample_bundle() -> dict:
         "latency": {r: {"p50_ms": 0.05 + 3 * i, "p95_ms": 0.1 + 4 * i, "p99_ms": 0.2 + 5 * i,
                         "queries_per_s": 1000 / (1 + i)} for i, r in enumerate(runs)},
         "scores": _scores(runs, types, 0.62),
-        "comparison": comparison,
+        "comparison": comparison, "corrected": "randomisation",
         "misses": [{"run": r, "k": 10, "rows": [
             {"type": t, "queries": 10, "hit_at_1": 0.5, "hit_at_k": 0.9, "misses": 1,
              "median_rank": 2.0, "lost_to": {"article": 0.4, "screen": 0.6}} for t in types]}
@@ -207,7 +207,7 @@ def test_silver_results_are_labelled_as_estimates(page):
     assert "Silver judgments are estimates." in text
     assert "Results: silver set (silver, estimates)" in text
     assert "Results: gold set" in text and "gold set (silver" not in text
-    assert "Kendall's tau 0.67" in text  # measured agreement quoted in the notice
+    assert "system rankings is 0.67" in text  # measured agreement quoted in the notice
 
 
 def test_no_silver_notice_without_silver_sets():
@@ -216,6 +216,11 @@ def test_no_silver_notice_without_silver_sets():
     bundle["agreement"] = None
     text = "".join(_parse(render_html(bundle)).text)
     assert "Silver judgments are estimates." not in text
+
+
+def test_legend_names_the_corrected_test(page):
+    text = " ".join("".join(_parse(page).text).split())
+    assert "p Holm: the randomisation p-value with Holm's correction" in text
 
 
 def test_rendering_is_deterministic():

@@ -968,7 +968,7 @@ def _finish(result, as_json: bool) -> None:
 @click.option("--judgments", "judged_by", type=click.Choice(["auto", "silver", "human"]),
               default="auto", show_default=True,
               help="Who made the judgments; auto: silver when a trawl synth provenance "
-                   "file (PREFIX.jsonl) sits beside PREFIX.queries.tsv.")
+                   "file (PREFIX.jsonl) sits beside PREFIX.qrels.")
 @click.option("--ann", type=click.Choice(["exact", "hnsw"]), default="exact",
               show_default=True, help="Dense search: exact, or an HNSW graph.")
 @click.option("--cache", "cache_dir", type=click.Path(file_okay=False), default=None,

@@ -55,7 +55,7 @@ class JudgmentSet:
     """Queries and their judgments, evaluated together.
 
     ``silver`` None means: silver when a ``trawl synth`` provenance file
-    (``PREFIX.jsonl`` beside ``PREFIX.queries.tsv``) is present, human otherwise.
+    (``PREFIX.jsonl`` beside ``PREFIX.qrels``) is present, human otherwise.
     """
 
     name: str
@@ -148,15 +148,6 @@ def plan_systems(encoders: Sequence[str], fuse: Sequence[str] = (),
 
 # --- judgment sets ---------------------------------------------------------------------------
 
-def provenance_file(queries: Path) -> Path | None:
-    """The synth provenance sidecar of a ``PREFIX.queries.tsv`` file, if there is one."""
-    name = queries.name
-    if not name.endswith(".queries.tsv"):
-        return None
-    sidecar = queries.with_name(name[: -len(".queries.tsv")] + ".jsonl")
-    return sidecar if sidecar.is_file() else None
-
-
 def describe_silver(sidecar: Path) -> str:
     """How a silver set was made, from its provenance lines (styles, seeds)."""
     styles: Counter[str] = Counter()
@@ -192,7 +183,9 @@ def _load_set(js: JudgmentSet) -> _Loaded:
         raise InputError(js.qrels, f"{len(missing)} judged query id(s) have no text in "
                          f"{js.queries}, e.g. {missing[0]!r}; give the queries file that "
                          "goes with these qrels")
-    sidecar = provenance_file(Path(js.queries))
+    from .scores import silver_provenance
+
+    sidecar = silver_provenance(js.qrels)
     silver = js.silver if js.silver is not None else sidecar is not None
     if js.how:
         how = js.how
@@ -202,7 +195,7 @@ def _load_set(js: JudgmentSet) -> _Loaded:
         how = "machine-made judgments (marked silver when run)"
     else:
         how = "judged by people" if js.silver is False else (
-            "no synth provenance beside the queries, so treated as human judgments")
+            "no synth provenance beside the qrels, so treated as human judgments")
     return _Loaded(js, queries, qrels, silver, how)
 
 
@@ -456,6 +449,7 @@ def _evaluation_entry(ld: _Loaded, names: Sequence[str], baseline: str,
                     | {"queries_per_s": latency[n].get("batch_queries_per_s")} for n in names},
         "scores": scores.score_rows(),
         "comparison": [r.as_dict() for r in comparison.rows] if comparison else [],
+        "corrected": _corrected_test(comparison),
         "misses": [{"run": m.run, "k": m.k, "rows": [r.as_dict() for r in m.rows]}
                    for m in misses],
         "miss_headline": base_misses.headline,
@@ -463,6 +457,14 @@ def _evaluation_entry(ld: _Loaded, names: Sequence[str], baseline: str,
         "type_rule": TYPE_RULE[0].upper() + TYPE_RULE[1:] + ".",
         "warnings": warnings,
     }
+
+
+def _corrected_test(comparison) -> str:
+    """Which test's p-values the Holm correction was applied to, in words."""
+    if comparison is None:
+        return ""
+    rule = comparison.as_dict()["correction"]
+    return "randomisation" if "randomisation" in rule else "bootstrap"
 
 
 def _agreement_fields(ag: Mapping[str, Any]) -> dict[str, Any]:

@@ -12,7 +12,8 @@ by ``trawl eval``), so every figure in the HTML report can be checked against it
   qrels_file, queries, judgments, baseline, latency {system: {p50_ms, p95_ms, p99_ms,
   queries_per_s}}, scores [{run, metric, type (None = all), n, mean, low, high}],
   comparison [{run, baseline, metric, type, n, diff, low, high, p_bootstrap,
-  p_randomisation, p_corrected, effect}], misses [{run, k, rows [{type, queries,
+  p_randomisation, p_corrected, effect}], corrected ("bootstrap" or "randomisation": the
+  p-values Holm's correction was applied to), misses [{run, k, rows [{type, queries,
   hit_at_1, hit_at_k, misses, median_rank, lost_to {type: share}}]}], miss_headline,
   worst {run, depth, queries [{type, qid, query, rank, wanted, winner}]}, warnings}
   where wanted/winner are {id, type, title, snippet} or None

@@ -84,10 +84,11 @@ def _silver_trust(bundle: Mapping[str, Any]) -> Markup | str:
         return ("How well they rank systems the way people would is not measured here; "
                 "review a sample (trawl review) or add human judgments to find out.")
     tau = ag["tau"]
-    return join(f"Measured against {ag['b_label']}: the two sets rank the systems with "
-                f"Kendall's tau {fmt.num(tau['value'], 2)} (interval "
-                f"{fmt.interval(tau['low'], tau['high'], 2)}) over {len(ag['systems'])} systems; "
-                "see ", el("a", {"href": "#agreement"}, "Agreement"), ".")
+    return join(f"Measured against {ag['b_label']}: Kendall's tau between the two sets' "
+                f"system rankings is {fmt.num(tau['value'], 2)} (interval "
+                f"{fmt.interval(tau['low'], tau['high'], 2)}) over {len(ag['systems'])} systems "
+                "(1: same order, -1: reversed); see ", el("a", {"href": "#agreement"}, "Agreement"),
+                ".")
 
 
 def _contents(bundle: Mapping[str, Any]) -> Markup:
@@ -318,8 +319,8 @@ def _comparison(bundle, ev, slug: str) -> Markup:
               el("h3", None, "Compared with the baseline"),
               el("p", {"class_": "legend"}, fmt.MARK_LEGEND, f"; alpha {alpha:g}. "
                  "p boot.: paired bootstrap; p rand.: paired randomisation (sign-flip) test; "
-                 "p Holm: the bootstrap p-value with Holm's correction across every row of "
-                 "this table. Effect: standardised mean difference (difference divided by "
+                 f"p Holm: the {ev.get('corrected') or 'bootstrap'} p-value with Holm's "
+                 "correction across every row of this table. Effect: standardised mean difference (difference divided by "
                  "the spread of per-query differences)."),
               table if rows else el("p", None, "Only one system: nothing to compare."))
 
@@ -455,8 +456,9 @@ def _reading_guide(bundle, number: int) -> Markup:
         ("recall@k", "share of the relevant items found in the top k."),
         ("interval", "95% percentile bootstrap interval over queries (resampled "
                      f"{bundle['setup']['resamples']} times, seed {bundle['setup']['seed']})."),
-        ("p (Holm)", "two-sided p-value from the paired bootstrap, corrected with Holm's "
-                     f"method across the rows of a comparison table; marks use alpha {alpha:g}."),
+        ("p (Holm)", "two-sided p-value of the paired test named in each comparison "
+                     "section, corrected with Holm's method across the rows of its table; "
+                     f"marks use alpha {alpha:g}."),
         ("silver", "judgments made by the tool from the catalogue itself; useful to rank "
                    "systems, but their absolute values are estimates."),
     ]

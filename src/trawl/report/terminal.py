@@ -19,8 +19,8 @@ def silver_note(ev: Mapping[str, Any], agreement: Mapping[str, Any] | None) -> s
     if agreement and ev["name"] in (agreement["a"], agreement["b"]):
         tau = agreement["tau"]
         other = agreement["b_label"] if ev["name"] == agreement["a"] else agreement["a_label"]
-        return (f"silver judgments: figures are estimates; they rank the systems like "
-                f"{other} with Kendall's tau {fmt.num(tau['value'], 2)} "
+        return (f"silver judgments: figures are estimates; system rankings against "
+                f"{other}: Kendall's tau {fmt.num(tau['value'], 2)} "
                 f"({fmt.interval(tau['low'], tau['high'], 2)})")
     return ("silver judgments: figures are estimates; agreement with human judgments "
             "not measured")
