@@ -75,3 +75,22 @@ def test_usual_part_of_speech_and_paraphrase_rules():
     assert out.startswith("boundary layer ") and not out.endswith("rubbish")
     protected = Rewording(wn, phrases=frozenset({("rubbish", "bin")}))
     assert protected.reword("rubbish bin", 1.0, random.Random(0)) == "rubbish bin"
+
+
+@pytest.mark.skipif(REAL is None, reason="WordNet 3.0 not installed (Debian wordnet-base)")
+def test_retype_uses_base_verbs_and_redraws_the_head_nouns_number():
+    from trawl.synth.paraphrase import plural, retype
+
+    wn = load_wordnet()
+    # regular plural rules as taught in English grammars (-es after sibilants, -ies)
+    assert [plural(w) for w in ("card", "pass", "journey", "city", "box")] == \
+        ["cards", "passes", "journeys", "cities", "boxes"]
+    rng = random.Random(2)
+    outs = [retype("replacing damaged smart cards", wn, rng) for _ in range(400)]
+    assert set(outs) <= {"replacing damaged smart cards", "replace damaged smart cards",
+                         "replacing damaged smart card", "replace damaged smart card"}
+    base = sum(o.startswith("replace ") for o in outs) / len(outs)
+    singular = sum(o.endswith(" card") for o in outs) / len(outs)
+    # chances 0.7 and 0.5 per query; binomial sd over 400 draws ~0.025
+    assert base == pytest.approx(0.7, abs=0.08) and singular == pytest.approx(0.5, abs=0.08)
+    assert retype("replacing cards", None, rng) == "replacing cards"

@@ -386,8 +386,8 @@ def _rank(r: float) -> str:
               help="Use N items, stratified by destination type (default: every item).")
 @click.option("--styles", default=None, metavar="MIX",
               help="Style mix, e.g. 'keyword,paraphrase:3' (weight 1 when omitted). Styles: "
-                   "keyword, question, paraphrase, typo, llm. Default: "
-                   "keyword:1,question:1,paraphrase:4,typo:1.")
+                   "keyword, question, paraphrase, typo, llm. Default: paraphrase "
+                   "(question,keyword when WordNet is missing and no --lexicon is given).")
 @seed_option
 @click.option("--lexicon", type=click.Path(dir_okay=False), default=None,
               help="Domain lexicon: lines of 'catalogue wording = everyday wording, ...'.")
@@ -396,7 +396,7 @@ def _rank(r: float) -> str:
 @click.option("--calibrate-with", type=click.Path(dir_okay=False), default=None,
               metavar="QUERIES.tsv",
               help="Real, unjudged queries (e.g. a search-log sample) to match the overlap "
-                   "profile to. Default profile: targets spread over 0-0.75.")
+                   "profile to. Default profile: targets spread over 0-0.6.")
 @click.option("--max-overlap", type=float, default=None,
               help="Drop queries sharing more than this share of words with their item.")
 @click.option("--check-with", multiple=True, metavar="SPEC",

@@ -95,13 +95,49 @@ class Rewording:
 
 
 RATES = (0.35, 0.5, 0.65, 0.8, 1.0)
+GERUND_TO_BASE = 0.7  # "renewing loans" -> "renew loans": people type tasks in base form
+NUMBER_FLIP = 0.5  # singular or plural is the writer's choice, not the item's
+
+
+def plural(noun: str) -> str:
+    """Regular English plural (-s, -es after sibilants, consonant + y -> -ies)."""
+    if noun.endswith(("s", "x", "z", "ch", "sh")):
+        return noun + "es"
+    if noun.endswith("y") and len(noun) > 1 and noun[-2] not in "aeiou":
+        return noun[:-1] + "ies"
+    return noun + "s"
+
+
+def retype(query: str, wordnet: WordNet | None, rng: random.Random) -> str:
+    """Word forms as a person would type them: gerunds to base verbs, and the head noun
+    (the last word) singular or plural afresh, independently of the item's wording.
+
+    The item's own inflections are an accident of how it was written; exact-form
+    matching should not get credit for them. Needs WordNet to know verbs and nouns."""
+    if wordnet is None:
+        return query
+    toks = query.split()
+    for k, w in enumerate(toks):
+        if w.endswith("ing") and w.isalpha() and rng.random() < GERUND_TO_BASE:
+            bases = wordnet.base_forms(w, "v")
+            if bases and bases[0] != w:
+                toks[k] = bases[0]
+    if toks and toks[-1].isalpha() and is_content(toks[-1]) and rng.random() < NUMBER_FLIP:
+        w = toks[-1]
+        bases = wordnet.base_forms(w, "n")
+        singular = [b for b in bases if b != w and " " not in b]
+        if singular:
+            toks[-1] = singular[0]
+        elif bases and len(w) > 3 and not w.endswith("s"):
+            toks[-1] = plural(w)
+    return " ".join(toks)
 
 
 def paraphrases(base: str, rewording: Rewording, rng: random.Random) -> list[str]:
     """Rewordings of ``base`` at increasing swap rates (duplicates and ``base`` removed)."""
     out: list[str] = []
     for rate in RATES:
-        q = rewording.reword(base, rate, rng)
+        q = retype(rewording.reword(base, rate, rng), rewording.wordnet, rng)
         if q != base and q not in out:
             out.append(q)
     return out
