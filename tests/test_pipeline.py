@@ -196,6 +196,10 @@ def test_summary_shows_quality_latency_marks_and_miss_headline(evaluated):
     assert fmt.MARK_LEGEND in text
 
 
+def _sidecars(out: Path) -> dict[str, bytes]:
+    return {n: (out / f"judgments/runs/{n}.run.latency.json").read_bytes() for n in SYSTEMS}
+
+
 def _manifests(out: Path) -> dict[str, str]:
     return {n: (out / "indexes" / n / "manifest.json").read_text() for n in ("minilm", "bm25")}
 
@@ -204,10 +208,15 @@ def _manifests(out: Path) -> dict[str, str]:
 def test_rerun_reuses_indexes_and_the_embedding_cache(library, evaluated):
     out, _ = evaluated
     before = _manifests(out)
+    timed = _sidecars(out)
     scores_before = (out / "judgments/scores.json").read_bytes()
     again = invoke(eval_args(library, out))
     assert again.exit_code == 0, again.output
     assert _manifests(out) == before  # indexes reused as they were, not rebuilt
+    assert _sidecars(out) == timed  # unchanged inputs: runs and latency kept, not re-timed
+    notes = json.loads((out / "results.json").read_text())["setup"]["notes"]
+    assert notes["reused"].startswith("runs and latency of minilm, bm25, minilm+bm25 come "
+                                      "from an earlier evaluation")
     # without the index folder, vectors come from the embedding cache: nothing re-embedded
     import shutil
 
@@ -216,7 +225,15 @@ def test_rerun_reuses_indexes_and_the_embedding_cache(library, evaluated):
     assert third.exit_code == 0, third.output
     build = json.loads((out / "indexes/minilm/manifest.json").read_text())["build"]
     assert (build["embedded"], build["reused"]) == (0, len(ITEMS))
+    assert _sidecars(out) == timed  # a rebuilt but identical index keeps its runs too
     # same inputs and seed: the same scores, intervals and warnings, byte for byte
+    assert (out / "judgments/scores.json").read_bytes() == scores_before
+    retimed = invoke(eval_args(library, out, "--retime"))
+    assert retimed.exit_code == 0, retimed.output
+    fresh = {n: json.loads(b) for n, b in _sidecars(out).items()}
+    assert all(fresh[n]["inputs"] == json.loads(timed[n])["inputs"] for n in SYSTEMS)
+    assert fresh != {n: json.loads(b) for n, b in timed.items()}  # measured again
+    assert "reused" not in json.loads((out / "results.json").read_text())["setup"]["notes"]
     assert (out / "judgments/scores.json").read_bytes() == scores_before
 
 
@@ -251,7 +268,10 @@ def test_silver_sets_are_labelled_as_estimates(library, tmp_path):
     assert "Silver judgments are estimates." in page
     human = invoke(["eval", cat, f"{prefix}.queries.tsv", f"{prefix}.qrels", "-e", "bm25",
                     "-o", tmp_path / "out2", "--judgments", "human", "-q", "--json"])
-    assert json.loads(human.stdout)["evaluations"][0]["silver"] is False
+    human_ev = json.loads(human.stdout)["evaluations"][0]
+    assert (human_ev["silver"], human_ev["judged_by"]) == (False, "human judgments")
+    assert ev["judged_by"] == ("silver judgments: figures are estimates; agreement with human "
+                               "judgments not measured")
 
 
 @pytest.mark.parametrize("extra, message", [
@@ -279,3 +299,21 @@ def test_qrels_without_query_text_is_a_located_error(library, tmp_path):
     assert result.exit_code == 2
     assert result.stderr == (f"error: {qrels}: 15 judged query id(s) have no text in {partial}, "
                              "e.g. 'h2'; give the queries file that goes with these qrels\n")
+
+
+def test_search_key_follows_the_inputs_not_the_build_time():
+    from trawl.pipeline import fused_key, search_key
+
+    manifest = {"encoder": {"spec": "minilm", "fingerprint": "ab"}, "catalogue": {"items": 3},
+                "build": {"created_at": "then", "seconds": 1.0}}
+    queries = {"q1": "renew my books", "q2": "lost card"}
+    key = search_key(manifest, queries, 10)
+    rebuilt = dict(manifest, build={"created_at": "now", "seconds": 2.0})
+    assert search_key(rebuilt, queries, 10) == key
+    other_weights = dict(manifest, encoder={"spec": "minilm", "fingerprint": "cd"})
+    changed = [search_key(other_weights, queries, 10),
+               search_key(manifest, {"q1": "renew my book", "q2": "lost card"}, 10),
+               search_key(manifest, {"q2": "lost card", "q1": "renew my books"}, 10),
+               search_key(manifest, queries, 5)]
+    assert len({key, *changed}) == 5
+    assert fused_key([key, "x"], 10) != fused_key(["x", key], 10)

@@ -978,18 +978,22 @@ def _finish(result, as_json: bool) -> None:
 @click.option("--scrub", is_flag=True,
               help="Replace e-mails, phone numbers, long digit runs and postcodes in the "
                    "query text the report and tables show (searches use the original).")
+@click.option("--retime", is_flag=True,
+              help="Search and time every system again, even those whose index, queries "
+                   "and depth are unchanged since the last run into OUTPUT.")
 @quiet_option
 @json_option
 def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, ...],
                  output: str, fuse: tuple[str, ...], baseline: str | None, k: int,
                  metrics: tuple[str, ...], resamples: int, seed: int, judged_by: str,
                  ann: str, cache_dir: str | None, template: str | None, title: str | None,
-                 scrub: bool, quiet: bool, as_json: bool) -> None:
+                 scrub: bool, retime: bool, quiet: bool, as_json: bool) -> None:
     """Index, search, score, compare and analyse misses for every encoder in one go,
     and write report.html.
 
     Indexes are kept in OUTPUT/indexes and reused while the catalogue and encoder are
-    unchanged; vectors come from the embedding cache, so reruns finish fast. Prints
+    unchanged; vectors come from the embedding cache; a system whose index, queries and
+    depth are unchanged keeps its run and latency figures; so reruns finish fast. Prints
     quality against latency with significance marks and the headline of the miss table.
     Under silver judgments every figure is an estimate, and the output says so.
 
@@ -1009,7 +1013,8 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
     result = evaluate(catalogue, [js], encoders, output, fuse=fuse, baseline=baseline, k=k,
                       metrics=metrics or DEFAULT_METRICS, resamples=resamples, seed=seed,
                       ann=ann, cache_dir=cache_dir, template=template, title=title,
-                      scrub_queries=scrub, quiet=quiet, notify=_step(quiet or as_json))
+                      scrub_queries=scrub, retime=retime, quiet=quiet,
+                      notify=_step(quiet or as_json))
     _finish(result, as_json)
     if scrub and not as_json:
         click.echo(result.bundle["setup"]["notes"]["privacy"])
@@ -1028,16 +1033,20 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
 @click.option("--resamples", type=click.IntRange(min=1), default=10000, show_default=True,
               help="Bootstrap and randomisation resamples.")
 @seed_option
+@click.option("--retime", is_flag=True,
+              help="Search and time every system again, even those whose index, queries "
+                   "and depth are unchanged since the last run into OUTPUT.")
 @quiet_option
 @json_option
 def demo(output: str, encoders: tuple[str, ...], fuse: tuple[str, ...], sample: int | None,
-         resamples: int, seed: int, quiet: bool, as_json: bool) -> None:
+         resamples: int, seed: int, retime: bool, quiet: bool, as_json: bool) -> None:
     """The whole job on the bundled transit catalogue: check it, distil the static
     encoder, synthesise silver queries, evaluate every encoder and the hybrid against the
     silver set and the hand-judged gold set, measure how alike the two sets rank the
     systems, and write OUTPUT/report.html.
 
-    Reruns reuse the distilled model and the embedding cache in OUTPUT.
+    Reruns reuse the distilled model, the embedding cache, the indexes and (for unchanged
+    inputs) the runs and latency figures in OUTPUT.
 
     \b
     Example:
@@ -1047,8 +1056,8 @@ def demo(output: str, encoders: tuple[str, ...], fuse: tuple[str, ...], sample: 
     from .pipeline import DEMO_ENCODERS, demo as run_demo
 
     result = run_demo(output, encoders=encoders or DEMO_ENCODERS, fuse=fuse or None,
-                      sample=sample, resamples=resamples, seed=seed, quiet=quiet,
-                      notify=_step(quiet or as_json))
+                      sample=sample, resamples=resamples, seed=seed, retime=retime,
+                      quiet=quiet, notify=_step(quiet or as_json))
     _finish(result, as_json)
 
 if __name__ == "__main__":  # pragma: no cover

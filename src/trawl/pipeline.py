@@ -10,6 +10,7 @@ into one folder. ``demo`` does all of it on the bundled transit catalogue from n
 
 from __future__ import annotations
 
+import hashlib
 import json
 import platform
 import re
@@ -35,7 +36,7 @@ from .privacy import scrub
 from .queries import read_queries
 from .retrievers import EncoderSpec, default_loader, parse_spec
 from .retrievers.fusion import RRF_K, reciprocal_rank_fusion
-from .runs import Run, write_run
+from .runs import Run, read_run, write_run
 
 Notify = Callable[[str], None]
 NAME_CHARS = re.compile(r"[^A-Za-z0-9._+-]+")
@@ -95,8 +96,9 @@ def parse_system(value: str, check_paths: bool = True) -> System:
     head, eq, rest = value.partition("=")
     if eq and head and not any(c in head for c in ":;"):
         name, spec_text = head.strip(), rest
-        if clean_name(name) != name:
-            raise UsageError(f"system name {name!r} may only use letters, digits and . _ + -")
+        if clean_name(name) != name or "+" in name:
+            raise UsageError(f"system name {name!r} may only use letters, digits and . _ - "
+                             "('+' joins the systems of a --fuse)")
     else:
         name, spec_text = "", value
     spec = parse_spec(spec_text, check_paths=check_paths)
@@ -252,6 +254,38 @@ def measure_fused(indexes: Sequence[Any], names: Sequence[str], queries: Mapping
     return out
 
 
+def _digest(obj: Any) -> str:
+    return hashlib.sha256(json.dumps(obj, sort_keys=True, ensure_ascii=False).encode()
+                          ).hexdigest()[:16]
+
+
+def search_key(manifest: Mapping[str, Any], queries: Mapping[str, str], depth: int) -> str:
+    """What a timed search depends on: the index (not when it was built), the queries in
+    order, the depth and the timing procedure."""
+    index = {k: v for k, v in manifest.items() if k != "build"}
+    return _digest({"index": index, "queries": list(queries.items()), "depth": depth,
+                    "warmup": LATENCY_WARMUP, "trawl": __version__})
+
+
+def fused_key(part_keys: Sequence[str], depth: int) -> str:
+    return _digest({"parts": list(part_keys), "rrf_k": RRF_K, "depth": depth,
+                    "trawl": __version__})
+
+
+def previous_search(run_path: Path, name: str, key: str, queries: Mapping[str, str]
+                    ) -> tuple[Run, dict[str, Any]] | None:
+    """The run and latency figures an earlier evaluation wrote for the same inputs."""
+    sidecar = Path(f"{run_path}.latency.json")
+    try:
+        latency = json.loads(sidecar.read_text(encoding="utf-8"))
+        if not isinstance(latency, dict) or latency.get("inputs") != key:
+            return None
+        run = read_run(run_path, name=name)
+    except (OSError, ValueError, TrawlError):
+        return None
+    return Run(name, {q: run.results.get(q, ()) for q in queries}), latency
+
+
 def _merge_runs(name: str, runs: Sequence[Run]) -> Run:
     """One run over the queries of several judgment sets (for agreement)."""
     merged: dict[str, tuple] = {}
@@ -266,6 +300,55 @@ def _merge_runs(name: str, runs: Sequence[Run]) -> Run:
 
 # --- the evaluation ---------------------------------------------------------------------------
 
+@dataclass(frozen=True)
+class Searched:
+    """Every system's run and latency figures for one query set."""
+
+    runs: Mapping[str, Run]
+    latency: Mapping[str, Mapping[str, Any]]
+    reused: tuple[str, ...]  # systems whose run and figures came from an earlier evaluation
+
+
+def search_set(systems: Sequence[System], indexes: Mapping[str, Any],
+               queries: Mapping[str, str], folder: Path, depth: int, retime: bool,
+               quiet: bool, say: Notify, label: str) -> Searched:
+    """Search (timed) with every system, writing ``folder/NAME.run`` and its latency
+    sidecar; an earlier run for exactly the same inputs is kept unless ``retime``."""
+    from .bench import measure_search
+
+    runs: dict[str, Run] = {}
+    latency: dict[str, dict[str, Any]] = {}
+    keys: dict[str, str] = {}
+    reused: list[str] = []
+    for s in systems:
+        run_path = folder / f"{s.name}.run"
+        keys[s.name] = (search_key(indexes[s.name].manifest, queries, depth)
+                        if s.spec is not None else
+                        fused_key([keys[p] for p in s.parts], depth))
+        earlier = None if retime else previous_search(run_path, s.name, keys[s.name], queries)
+        if earlier is not None:
+            say(f"search {label}: {s.name}: reusing {run_path} (same index, queries, depth)")
+            runs[s.name], latency[s.name] = earlier
+            reused.append(s.name)
+            continue
+        say(f"search {label}: {s.name} ({len(queries)} queries, timed one at a time)")
+        if s.spec is not None:
+            run, report = measure_search(indexes[s.name], queries, depth,
+                                         warmup=LATENCY_WARMUP, quiet=quiet, name=s.name)
+            lat = report.as_dict()
+        else:
+            run = reciprocal_rank_fusion([runs[p] for p in s.parts], RRF_K, depth=depth,
+                                         name=s.name)
+            lat = measure_fused([indexes[p] for p in s.parts], s.parts, queries, depth,
+                                s.name)
+            lat["batch_queries_per_s"] = _fused_throughput(latency, s.parts)
+        lat["inputs"] = keys[s.name]
+        runs[s.name], latency[s.name] = run, lat
+        write_run(run_path, run)
+        _write_json(Path(f"{run_path}.latency.json"), lat)
+    return Searched(runs, latency, tuple(reused))
+
+
 def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
              encoders: Sequence[str], out_dir: str | Path, *, fuse: Sequence[str] = (),
              baseline: str | None = None, k: int = DEFAULT_DEPTH,
@@ -273,7 +356,7 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
              seed: int = 0, alpha: float = 0.05, ann: str = "exact",
              cache_dir: str | Path | None = None, template: str | None = None,
              agreement: tuple[str, str] | None = None, title: str | None = None,
-             scrub_queries: bool = False, quiet: bool = False,
+             scrub_queries: bool = False, retime: bool = False, quiet: bool = False,
              notify: Notify | None = None) -> EvalResult:
     """Index, search (timed), fuse, score, compare, tabulate misses and write the report.
 
@@ -281,10 +364,11 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
     names with ``+``. The baseline defaults to the first system. ``agreement`` names two
     judgment sets whose system rankings are compared. ``scrub_queries`` replaces personal
     data (``privacy.scrub``) in the query text the report and tables show; searches
-    still use the original text.
+    still use the original text. A system whose index, queries and depth are unchanged
+    since an earlier evaluation into the same folder keeps that run and its latency
+    figures (the report says so); ``retime`` searches and times everything again.
     """
     from .agreement import agree
-    from .bench import measure_search
     from .compare import compare_scores
     from .misses import miss_table
     from .scores import score_runs
@@ -331,33 +415,15 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         if reused:
             say(f"  reused {out / 'indexes' / s.name}")
 
-    runs_by_set: dict[str, dict[str, Run]] = {}
     scrubbed = dict.fromkeys(PRIVACY_KINDS, 0)
-    latency_by_set: dict[str, dict[str, dict[str, Any]]] = {}
     evaluations = []
-    cpu_note = ""
+    searched: dict[str, Searched] = {}
     for ld in loaded:
         js = ld.spec
         folder = out / js.name
-        runs: dict[str, Run] = {}
-        latency: dict[str, dict[str, Any]] = {}
-        for s in systems:
-            say(f"search {js.name}: {s.name} ({len(ld.queries)} queries, timed one at a time)")
-            if s.spec is not None:
-                run, report = measure_search(indexes[s.name], ld.queries, depth,
-                                             warmup=LATENCY_WARMUP, quiet=quiet, name=s.name)
-                lat = report.as_dict()
-                cpu_note = f"{report.cpu}, {report.threads} thread(s)"
-            else:
-                parts = [runs[p] for p in s.parts]
-                run = reciprocal_rank_fusion(parts, RRF_K, depth=depth, name=s.name)
-                lat = measure_fused([indexes[p] for p in s.parts], s.parts, ld.queries, depth,
-                                    s.name)
-                lat["batch_queries_per_s"] = _fused_throughput(latency, s.parts)
-            runs[s.name] = run
-            latency[s.name] = lat
-            write_run(folder / "runs" / f"{s.name}.run", run)
-            _write_json(folder / "runs" / f"{s.name}.run.latency.json", lat)
+        found = searched[js.name] = search_set(systems, indexes, ld.queries, folder / "runs",
+                                               depth, retime, quiet, say, js.name)
+        runs, latency = found.runs, found.latency
         ordered = [runs[baseline]] + [runs[n] for n in names if n != baseline]
         say(f"score {js.name}: {len(ld.qrels)} queries, {resamples} bootstrap resamples")
         scores = score_runs(ld.qrels, ordered, metric_names, cat, resamples, seed, alpha)
@@ -366,14 +432,12 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         shown = dict(ld.queries)
         if scrub_queries:
             for qid, text in shown.items():
-                shown[qid], found = scrub(text)
-                for kind, n in found.items():
+                shown[qid], counts = scrub(text)
+                for kind, n in counts.items():
                     scrubbed[kind] += n
         misses = [miss_table(ld.qrels, runs[n], cat, min(MISS_K, depth), WORST_QUERIES,
                              shown) for n in names]
         _write_tables(folder, scores, comparison, misses)
-        runs_by_set[js.name] = runs
-        latency_by_set[js.name] = latency
         evaluations.append(_evaluation_entry(ld, names, baseline, latency, scores, comparison,
                                              misses))
 
@@ -381,7 +445,7 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
     if agreement:
         a, b = agreement
         say(f"agreement: {a} vs {b}")
-        merged = [_merge_runs(n, [runs_by_set[a][n], runs_by_set[b][n]]) for n in names]
+        merged = [_merge_runs(n, [searched[a].runs[n], searched[b].runs[n]]) for n in names]
         qrels = {ld.spec.name: ld.qrels for ld in loaded}
         ag = agree(qrels[a], qrels[b], merged, metric=metric_names[0], resamples=resamples,
                    seed=seed, confidence=1 - alpha)
@@ -390,6 +454,10 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         agreement_entry = {"a": a, "b": b, "a_label": labels[a], "b_label": labels[b],
                            **_agreement_fields(ag.as_dict())}
 
+    from .report.terminal import silver_note
+
+    for ev in evaluations:
+        ev["judged_by"] = silver_note(ev, agreement_entry)
     bundle = {
         "format": "trawl-results/1",
         "title": title or f"Search evaluation of {Path(cat.path).name}",
@@ -399,7 +467,7 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
                           "types": cat.type_counts()},
             "metrics": metric_names, "primary": metric_names[0], "depth": depth,
             "resamples": resamples, "seed": seed, "alpha": alpha,
-            "notes": _notes(systems, k, depth, ann, cat, cpu_note),
+            "notes": _notes(systems, k, depth, ann, cat, list(searched.values())),
             "versions": _versions(),
         },
         "systems": [_system_entry(s, indexes, cat) for s in systems],
@@ -488,16 +556,23 @@ def _system_entry(s: System, indexes: Mapping[str, Any], cat: Catalogue) -> dict
 
 
 def _notes(systems: Sequence[System], k: int, depth: int, ann: str, cat: Catalogue,
-           cpu: str) -> dict[str, str]:
+           searched: Sequence[Searched]) -> dict[str, str]:
     notes = {"search": f"{'exact inner product' if ann == 'exact' else ann.upper()} "
                        f"(dense), top {depth} per query"}
     if depth < k:
         notes["search"] += f" (asked for {k}; the catalogue has {len(cat)} items)"
     if any(s.spec is None for s in systems):
         notes["fusion"] = f"Reciprocal Rank Fusion, k={RRF_K}, of each part's top {depth}"
+    cpu = next((f"{lat['cpu']}, {lat['threads']} thread(s)" for found in searched
+                for lat in found.latency.values() if lat.get("cpu")), "")
     if cpu:
         notes["latency"] = (f"one query at a time (encode + search), {LATENCY_WARMUP} "
                             f"warm-up queries excluded; {cpu}")
+    reused = list(dict.fromkeys(n for found in searched for n in found.reused))
+    if reused:
+        notes["reused"] = (f"runs and latency of {', '.join(reused)} come from an earlier "
+                           "evaluation with the same index, queries and depth (--retime "
+                           "measures again)")
     notes["text template"] = repr(cat.template.pattern)
     return notes
 
@@ -564,7 +639,7 @@ def demo_data_root() -> Path:
 def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENCODERS,
          fuse: Sequence[str] | None = None, sample: int | None = None,
          resamples: int = DEFAULT_RESAMPLES, seed: int = 0,
-         cache_dir: str | Path | None = None, quiet: bool = False,
+         cache_dir: str | Path | None = None, retime: bool = False, quiet: bool = False,
          notify: Notify | None = None) -> EvalResult:
     """The whole job on the bundled transit catalogue, from an empty folder.
 
@@ -610,5 +685,5 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
     return evaluate(cat, sets, specs, out, fuse=fuse, resamples=resamples, seed=seed,
                     cache_dir=cache_dir if cache_dir is not None else out / "cache",
                     agreement=("silver", "gold") if len(specs) + len(fuse) >= 2 else None,
-                    title="Quillfern Regional Transit: rider app search", quiet=quiet,
-                    notify=notify)
+                    title="Quillfern Regional Transit: rider app search", retime=retime,
+                    quiet=quiet, notify=notify)

@@ -15,7 +15,9 @@ by ``trawl eval``), so every figure in the HTML report can be checked against it
   p_randomisation, p_corrected, effect}], corrected ("bootstrap" or "randomisation": the
   p-values Holm's correction was applied to), misses [{run, k, rows [{type, queries,
   hit_at_1, hit_at_k, misses, median_rank, lost_to {type: share}}]}], miss_headline,
-  worst {run, depth, queries [{type, qid, query, rank, wanted, winner}]}, warnings}
+  worst {run, depth, queries [{type, qid, query, rank, wanted, winner}]}, warnings,
+  judged_by (who made the judgments; for silver sets: that figures are estimates, with
+  the measured agreement when known)}
   where wanted/winner are {id, type, title, snippet} or None
 - ``agreement``: None or {a, b, a_label, b_label, metric, shared, tau {value, low, high},
   rho {...}, systems [{run, score_a, score_b, rank_a, rank_b}], flips [{first, second,
