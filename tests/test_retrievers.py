@@ -112,7 +112,8 @@ def test_bm25_parameters_change_scores():
     assert flat[1] > tuned[1]  # no length normalisation: the long doc is not penalised
 
 
-@pytest.mark.parametrize("kind", ["st", "static"])
+# st pays for importing sentence-transformers and transformers (seconds, cold)
+@pytest.mark.parametrize("kind", [pytest.param("st", marks=pytest.mark.slow), "static"])
 def test_unloadable_model_folder_is_a_user_error(tmp_path, kind):
     from trawl.retrievers import EncoderLoader
 
