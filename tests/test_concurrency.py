@@ -5,9 +5,9 @@ from __future__ import annotations
 
 import json
 import re
-import signal
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from trawl.catalogue import load_catalogue
@@ -25,10 +25,11 @@ def spec(tmp_path_factory) -> str:
 
 @pytest.mark.slow
 def test_second_build_of_the_same_folder_exits_2_naming_the_first_builders_pid(spec, tmp_path):
-    big = make_catalogue(tmp_path / "big.jsonl", range(40_000))  # keeps the first one busy
+    big = make_catalogue(tmp_path / "big.jsonl", range(20_000))  # seconds of embedding
     small = make_catalogue(tmp_path / "small.jsonl", range(20))
     out = tmp_path / "idx"
-    first = start_trawl("index", big, "-e", spec, "-o", out, "--cache-dir", tmp_path / "c1", "-q")
+    first = start_trawl("index", big, "-e", spec, "-o", out, "--cache-dir", tmp_path / "c1",
+                        "-q", "--json")
     try:
         lock = tmp_path / ".idx.lock"
         holds = wait_for(lambda: lock.exists() and lock.read_text().strip() == str(first.pid),
@@ -37,17 +38,20 @@ def test_second_build_of_the_same_folder_exits_2_naming_the_first_builders_pid(s
         second = run_trawl("index", small, "-e", spec, "-o", out, "--cache-dir",
                            tmp_path / "c2", "-q")
         assert first.poll() is None, "first build ended before the second tried; test too small"
+        stdout, stderr = first.communicate(timeout=600)
     finally:
-        first.send_signal(signal.SIGKILL)  # the kill also shows a dead holder frees the lock
-        first.wait(timeout=30)
+        if first.poll() is None:
+            first.kill()
     assert second.returncode == 2
     assert second.stdout == ""
     assert re.fullmatch(rf"error: [^\n]* {re.escape(str(out))} is in use by pid {first.pid} "
                         r"[^\n]*\n", second.stderr), second.stderr
     assert cache_rows(tmp_path / "c2") == 0  # refused before any work
+    assert first.returncode == 0, stderr  # the first one proceeded undisturbed
+    assert json.loads(stdout)["items"] == 20_000
 
     third = run_trawl("index", small, "-e", spec, "-o", out, "--cache-dir", tmp_path / "c2",
-                      "-q", "--json")
+                      "-q", "--json")  # once the first is done, the folder is free again
     assert third.returncode == 0, third.stderr
     assert json.loads(third.stdout)["items"] == 20
 
@@ -81,3 +85,22 @@ def test_two_writers_keep_the_shared_embedding_cache_consistent(spec, tmp_path):
     assert union.returncode == 0, union.stderr
     assert {k: json.loads(union.stdout)[k] for k in ("embedded", "reused")} == {
         "embedded": 0, "reused": 8000}
+
+
+def test_a_cache_holding_two_vector_sizes_for_one_encoder_is_refused(tmp_path):
+    """What a second writer with different weights under the same fingerprint, or a
+    damaged cache, would leave: the build stops with the fix instead of mixing sizes."""
+    from trawl.errors import TrawlError
+    from trawl.retrievers.cache import EmbeddingCache, text_key
+
+    from .retrieval_fakes import FakeLoader, tiny_catalogue
+
+    cat, loader = tiny_catalogue(), FakeLoader()
+    odd_text = cat.texts()[5]
+    with EmbeddingCache(tmp_path / "c", "fake-weights-1") as cache:
+        cache.put([text_key(odd_text)], np.ones((1, 8), dtype=np.float32))
+    with pytest.raises(TrawlError, match=r"embedding cache .* holds vectors of sizes \[8, 16\] "
+                                         r"for one encoder; delete the cache file and rebuild"):
+        build_index(cat, "minilm", tmp_path / "idx", cache_dir=tmp_path / "c", quiet=True,
+                    loader=loader)
+    assert not (tmp_path / "idx").exists()

@@ -22,7 +22,7 @@ import json
 import os
 import shutil
 import time
-from collections.abc import Iterator, Mapping
+from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from datetime import datetime, timezone
 from importlib import metadata
@@ -49,6 +49,7 @@ HNSW_FILE = "hnsw.faiss"
 LEXICAL_DIR = "bm25"
 ANN_KINDS = ("exact", "hnsw")
 EMBED_CHUNK = 256   # texts per cache commit: the unit an interrupted build resumes from
+CACHE_SLICE = 5000  # cached vectors fetched at a time while filling the matrix
 QUERY_BATCH = 64    # queries encoded together by Index.search
 DEFAULT_BATCH_SIZE = 32  # sentence-transformers' own default
 
@@ -150,27 +151,71 @@ def _embed(catalogue: Catalogue, encoder, cache_root: Path, batch_size: int,
     Missing texts are embedded in a fixed order (length, then hash) and committed per
     chunk, so a resumed build embeds exactly the chunks an uninterrupted one would have,
     in the same batches, and produces the same bits.
+
+    Memory: vectors go straight into one preallocated matrix (cached ones fetched a
+    slice at a time) and texts are rendered again when their chunk is embedded rather
+    than all kept, so a build holds little more than the vectors themselves.
     """
-    texts = catalogue.texts()
-    keys = [text_key(t) for t in texts]
+    items, template = catalogue.items, catalogue.template
+    first: dict[str, int] = {}        # text key -> first item with that text
+    repeats: dict[str, list[int]] = {}  # text key -> later items with the same text
+    length = np.empty(len(items), dtype=np.int64)
+    for i, item in enumerate(items):
+        text = template.render(item)
+        key = text_key(text)
+        length[i] = len(text)
+        if key in first:
+            repeats.setdefault(key, []).append(i)
+        else:
+            first[key] = i
+    store = _RowStore(len(items), first, repeats, cache_root)
     with EmbeddingCache(cache_root, encoder.fingerprint) as cache:
-        found = cache.get(keys)
-        todo = sorted({k: t for k, t in zip(keys, texts) if k not in found}.items(),
-                      key=lambda kt: (len(kt[1]), kt[0]))
+        unique = list(first)
+        found: set[str] = set()
+        for s in range(0, len(unique), CACHE_SLICE):
+            got = cache.get(unique[s:s + CACHE_SLICE])
+            store.fill(got.keys(), got.values())
+            found.update(got)
+        todo = sorted((k for k in unique if k not in found),
+                      key=lambda k: (int(length[first[k]]), k))
+        del unique, found
         with progress(len(todo), "embedding", quiet, unit="text") as bar:
             for s in range(0, len(todo), EMBED_CHUNK):
                 chunk = todo[s:s + EMBED_CHUNK]
-                vectors = encoder.encode_documents([t for _, t in chunk], batch_size)
-                cache.put([k for k, _ in chunk], vectors)
-                found.update(zip((k for k, _ in chunk), vectors))
+                texts = [template.render(items[first[k]]) for k in chunk]
+                vectors = encoder.encode_documents(texts, batch_size)
+                cache.put(chunk, vectors)
+                store.fill(chunk, vectors)
                 bar.update(len(chunk))
-    missing = {k for k, _ in todo}
-    dims = {v.shape[0] for v in found.values()}
-    if len(dims) != 1:
-        raise TrawlError(f"embedding cache {cache_root} holds vectors of sizes {sorted(dims)} "
-                         "for one encoder; delete the cache file and rebuild")
-    matrix = np.ascontiguousarray(np.stack([found[k] for k in keys]), dtype=np.float32)
-    return matrix, sum(1 for k in keys if k in missing)
+    embedded = sum(1 + len(repeats.get(k, ())) for k in todo)
+    return store.matrix, embedded
+
+
+class _RowStore:
+    """The vector matrix of a build, filled by text key; every vector must have one size."""
+
+    def __init__(self, n: int, first: Mapping[str, int], repeats: Mapping[str, list[int]],
+                 cache_root: Path) -> None:
+        self._n, self._first, self._repeats = n, first, repeats
+        self._cache_root = cache_root
+        self._matrix: np.ndarray | None = None
+
+    def fill(self, keys: Iterable[str], vectors: Iterable[np.ndarray]) -> None:
+        for k, v in zip(keys, vectors):
+            if self._matrix is None:
+                self._matrix = np.empty((self._n, v.shape[0]), dtype=np.float32)
+            if v.shape[0] != self._matrix.shape[1]:
+                raise TrawlError(f"embedding cache {self._cache_root} holds vectors of sizes "
+                                 f"{sorted({v.shape[0], self._matrix.shape[1]})} for one "
+                                 "encoder; delete the cache file and rebuild")
+            self._matrix[self._first[k]] = v
+            for row in self._repeats.get(k, ()):
+                self._matrix[row] = v
+
+    @property
+    def matrix(self) -> np.ndarray:
+        assert self._matrix is not None  # a catalogue has at least one item
+        return self._matrix
 
 
 def _write_dense(vectors: np.ndarray, ann: str, hnsw: HnswParams, folder: Path) -> dict:
