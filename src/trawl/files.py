@@ -23,6 +23,7 @@ def atomic_write(path: str | Path, mode: str = "w", encoding: str | None = "utf-
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    os.fchmod(fd, 0o666 & ~_umask())  # mkstemp makes 0600; outputs are shared like any file
     binary = "b" in mode
     try:
         with os.fdopen(fd, mode, encoding=None if binary else encoding,
@@ -35,6 +36,12 @@ def atomic_write(path: str | Path, mode: str = "w", encoding: str | None = "utf-
         with contextlib.suppress(FileNotFoundError):
             os.unlink(tmp)
         raise
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def write_text_atomic(path: str | Path, text: str) -> None:
