@@ -190,15 +190,3 @@ def test_token_lengths_use_the_bundled_tokenizer(tmp_path):
     report = check_catalogue(load_catalogue(path), unit="tokens")
     assert report.length_percentiles["max"] == 3
 
-
-def test_outputs_get_ordinary_file_permissions(tmp_path):
-    import os
-
-    from trawl.files import write_text_atomic
-
-    old = os.umask(0o022)
-    try:
-        write_text_atomic(tmp_path / "out.txt", "x")
-    finally:
-        os.umask(old)
-    assert (tmp_path / "out.txt").stat().st_mode & 0o777 == 0o644
