@@ -104,10 +104,13 @@ def cache_rows(cache_dir: Path) -> int:
 
 
 def cache_health(cache_dir: Path) -> tuple[str, set[int], int]:
-    """(SQLite integrity verdict, vector sizes in bytes, rows) of an embedding cache."""
+    """(SQLite integrity verdict, vector sizes in bytes, rows) of an embedding cache; a
+    process killed between creating the file and its table leaves no rows."""
     db = sqlite3.connect(cache_dir / "embeddings.sqlite", timeout=30)
     try:
         verdict = db.execute("PRAGMA integrity_check").fetchone()[0]
+        if not db.execute("SELECT 1 FROM sqlite_master WHERE name = 'vectors'").fetchone():
+            return verdict, set(), 0
         sizes = {n for (n,) in db.execute("SELECT DISTINCT length(vector) FROM vectors")}
         rows = db.execute("SELECT COUNT(*) FROM vectors").fetchone()[0]
         return verdict, sizes, rows
