@@ -101,8 +101,9 @@ class LlmClient:
             port = f":{parts.port}" if parts.port else ""
         except ValueError:
             return "(the --llm-url given)"
-        query = "?..." if parts.query else ""
-        return f"{parts.scheme}://{host}{port}{parts.path}{query}" if host else "(the --llm-url given)"
+        if not host:
+            return "(the --llm-url given)"
+        return f"{parts.scheme}://{host}{port}{parts.path}{'?...' if parts.query else ''}"
 
     def _hide(self, text: str) -> str:
         """``text`` with the key and any credentials or query from the URL masked."""
