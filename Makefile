@@ -33,7 +33,7 @@ demo: $(STAMP) system-deps
 	$(VENV)/bin/trawl demo -o demo-out
 
 test: $(STAMP) system-deps
-	$(PY) -m pytest -q
+	$(PY) -m pytest -q --durations=15
 
 bench: $(STAMP)
 	for f in bench/*.py; do $(PY) $$f || exit 1; done
