@@ -69,17 +69,10 @@ def emit_json(obj: Any) -> None:
 
 
 def table(rows: list[list[Any]], header: list[str], align: str | None = None) -> str:
-    """A plain aligned text table; ``align`` is one char per column ('l' or 'r')."""
-    cells = [[str(h) for h in header]] + [[_fmt(c) for c in r] for r in rows]
-    widths = [max(len(r[i]) for r in cells) for i in range(len(header))]
-    align = align or "l" + "r" * (len(header) - 1)
-    out = []
-    for k, r in enumerate(cells):
-        out.append("  ".join(c.ljust(w) if a == "l" else c.rjust(w)
-                             for c, w, a in zip(r, widths, align)).rstrip())
-        if k == 0:
-            out.append("  ".join("-" * w for w in widths))
-    return "\n".join(out)
+    """An aligned text table with floats at three decimals (see tables.text_table)."""
+    from .tables import text_table
+
+    return text_table(header, [[_fmt(c) for c in r] for r in rows], align)
 
 
 def _fmt(c: Any) -> str:
