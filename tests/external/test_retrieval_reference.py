@@ -9,7 +9,7 @@ import socket
 import numpy as np
 import pytest
 
-from trawl.catalogue import Catalogue, load_catalogue
+from trawl.catalogue import load_catalogue
 from trawl.index import HnswParams, build_index, open_index
 from trawl.judgments import read_qrels
 from trawl.queries import read_queries
@@ -37,37 +37,38 @@ def scored(qrels, run, *measures):
     return ir_measures.calc_aggregate(list(measures), qr, docs)
 
 
-def subset(cat: Catalogue, n: int) -> Catalogue:
-    return Catalogue(cat.path, cat.items[:n], cat.template)
-
-
 # --- dense vectors against the library they come from ---------------------------------------------
 
+@pytest.fixture(scope="module")
+def minilm_cranfield(cran, work):
+    """All of Cranfield indexed with minilm: embedded once, shared by the checks below."""
+    cat = cran[0]
+    build_index(cat, "minilm", work / "minilm", cache_dir=work / "cache", quiet=True)
+    return open_index(work / "minilm", cat, "minilm")
+
+
 @pytest.mark.slow
-def test_minilm_index_vectors_equal_sentence_transformers_encode(cran, work):
+def test_minilm_index_vectors_equal_sentence_transformers_encode(cran, minilm_cranfield):
     # Reference: sentence-transformers' own encode of the bundled model, loaded separately.
     from sentence_transformers import SentenceTransformer
 
     from trawl.bundled import model_path
 
-    cat = subset(cran[0], 48)
-    build_index(cat, "minilm", work / "st48", cache_dir=work / "cache", quiet=True)
-    ours = np.load(work / "st48" / "vectors.npy")
+    ours = np.load(minilm_cranfield.path / "vectors.npy")[:48]
     reference = SentenceTransformer(str(model_path()), device="cpu").encode(
-        cat.texts(), normalize_embeddings=True)
+        cran[0].texts()[:48], normalize_embeddings=True)
     cosine = np.sum(ours * reference, axis=1) / np.linalg.norm(reference, axis=1)
     assert cosine.min() > 0.9999
 
 
 @pytest.mark.slow
-def test_int8_variant_stays_close_to_fp32(cran, record_property):
+def test_int8_variant_stays_close_to_fp32(cran, minilm_cranfield, record_property):
     # Regression bound from the value measured on this machine (first 100 Cranfield
-    # abstracts, title + text): mean 0.919, min 0.865. The issue measured mean 0.92, min 0.88 on
-    # ~100-token texts. A drop well below means the quantisation changed.
-    texts = cran[0].texts()[:100]
-    loader = default_loader()
-    fp32 = loader.encoder(parse_spec("minilm")).encode_documents(texts, 32)
-    int8 = loader.encoder(parse_spec("minilm-int8")).encode_documents(texts, 32)
+    # abstracts, title + text): mean 0.919, min 0.865. The issue measured mean 0.92, min 0.88
+    # on ~100-token texts. A drop well below means the quantisation changed.
+    fp32 = np.load(minilm_cranfield.path / "vectors.npy")[:100]
+    int8 = default_loader().encoder(parse_spec("minilm-int8")).encode_documents(
+        cran[0].texts()[:100], 32)
     cosine = np.sum(fp32 * int8, axis=1)
     record_property("int8_cosine_mean", float(cosine.mean()))
     record_property("int8_cosine_min", float(cosine.min()))
@@ -126,13 +127,6 @@ def test_bm25_reproduces_the_cranfield_reference(cran, work):
     assert m[ir_measures.nDCG @ 10] == pytest.approx(0.352, abs=0.01)
     assert m[ir_measures.RR @ 10] == pytest.approx(0.507, abs=0.01)
     assert m[ir_measures.R @ 100] == pytest.approx(0.709, abs=0.01)
-
-
-@pytest.fixture(scope="module")
-def minilm_cranfield(cran, work):
-    cat = cran[0]
-    build_index(cat, "minilm", work / "minilm", cache_dir=work / "cache", quiet=True)
-    return open_index(work / "minilm", cat, "minilm")
 
 
 @pytest.mark.slow
