@@ -81,7 +81,7 @@ def study(name: str, paths, seeds, args, static_dir: Path, cache: Path) -> list[
         silver_set = synthesise(cat, per_item=args.per_item, sample=args.sample,
                                 styles=args.styles, seed=seed, quiet=True,
                                 calibrate_with=human_q if args.calibrate else None,
-                                calibration_source=str(q_path))
+                                calibration_source=str(q_path), cache_dir=cache)
         silver = system_scores(cat, dict(silver_set.queries), silver_set.qrels, static_dir,
                                cache)
         s = [silver[x] for x in SYSTEMS]

@@ -33,8 +33,9 @@ from .grading import (RELATED_GRADE, SOURCE_GRADE, Draft, Merged, merge_near_dup
 from .keyword import keyword_query, title_phrase
 from .lexicon import EMPTY, Lexicon
 from .llm import LlmClient
+from .neighbours import NEIGHBOUR_DEPTH, NEIGHBOUR_SPECS, consensus_neighbours
 from .overlap import OverlapProfile, overlap
-from .paraphrase import Rewording, paraphrases
+from .paraphrase import Rewording, drop_rarest, paraphrases
 from .question import question_query
 from .text import words
 from .typo import DEFAULT_RATE, add_typos, misspell
@@ -49,14 +50,14 @@ DEFAULT_MIX = {"paraphrase": 1.0}
 FALLBACK_MIX = {"question": 1.0, "keyword": 1.0}  # default when paraphrasing is impossible
 CANDIDATES = 3  # draws per slot for the styles that do not vary their wording themselves
 
-# Default overlap profile: targets spread evenly over 0..0.6, dropping queries above 0.6.
+# Default overlap profile: targets spread evenly over 0..0.6, dropping queries above 0.75.
 # Real people's queries reuse well under all of an item's words (during development the
 # share of human query words found in the judged item averaged 0.19 to 0.68 on four
-# collections, by different measures), and in bench/silver_agreement.py a ceiling of 0.6
-# ranked systems closer to human judgments than 0.75 or no ceiling did, at the price of
-# dropping the slots whose items offer little to paraphrase. Calibrate from real queries
-# when you have some (calibrate.py).
-DEFAULT_PROFILE = OverlapProfile(tuple(0.06 * k for k in range(11)), 0.6, "default")
+# collections, by different measures). With sense-checked swaps and the rarest words
+# left out, bench/silver_agreement.py ranked systems closer to human judgments with a
+# ceiling of 0.75 than with 0.6 (too few queries survive) or none (exact-word matching
+# wins). Calibrate from real queries when you have some (calibrate.py).
+DEFAULT_PROFILE = OverlapProfile(tuple(0.06 * k for k in range(11)), 0.75, "default")
 
 
 @dataclass(frozen=True)
@@ -77,6 +78,10 @@ def _question(item: Item, tools: Tools, rng: random.Random) -> list[str]:
     return [question_query(item, tools.corpus, rng) for _ in range(CANDIDATES)]
 
 
+def _can_reword(tools: Tools) -> bool:
+    return tools.rewording.wordnet is not None or bool(tools.rewording.lexicon.entries)
+
+
 def _base(item: Item, tools: Tools, rng: random.Random) -> str:
     """What paraphrase and typo start from: the title's words (see ``title_phrase``)."""
     return " ".join(title_phrase(item, tools.corpus, rng))
@@ -84,14 +89,15 @@ def _base(item: Item, tools: Tools, rng: random.Random) -> str:
 
 def _paraphrase(item: Item, tools: Tools, rng: random.Random) -> list[str]:
     base = _base(item, tools, rng)
-    return paraphrases(base, tools.rewording, rng) or [base]
+    stems = tools.corpus.words[item.id].stems
+    out = paraphrases(base, tools.rewording, rng, stems) or [base]
+    return [drop_rarest(q, stems, tools.corpus.idf) for q in out]
 
 
 def _typo(item: Item, tools: Tools, rng: random.Random) -> list[str]:
     """A keyword or question query (paraphrased when WordNet or a lexicon is there) with
     at least one misspelt word, the rest at the typo rate."""
-    cands = _paraphrase(item, tools, rng) if tools.rewording.wordnet or \
-        tools.rewording.lexicon.entries else [_base(item, tools, rng)]
+    cands = _paraphrase(item, tools, rng) if _can_reword(tools) else [_base(item, tools, rng)]
     out = []
     for q in cands:
         toks = q.split()
@@ -208,8 +214,10 @@ def synthesise(catalogue: Catalogue, *, per_item: int = 1, sample: int | None = 
                check_depth: int = 20, lexicon: Lexicon | None = None,
                wordnet: WordNet | None | str = "auto", llm: LlmClient | None = None,
                typo_rate: float = DEFAULT_RATE, source_grade: int = SOURCE_GRADE,
-               related_grade: int = RELATED_GRADE, qid_prefix: str = "syn",
-               quiet: bool = False) -> SilverSet:
+               related_grade: int = RELATED_GRADE,
+               neighbours: Sequence[str] = NEIGHBOUR_SPECS,
+               neighbour_depth: int = NEIGHBOUR_DEPTH, cache_dir: str | Path | None = None,
+               qid_prefix: str = "syn", quiet: bool = False) -> SilverSet:
     """Synthesise ``per_item`` queries for each (sampled) item, with silver judgments.
 
     ``styles`` is a mix such as ``"keyword,paraphrase:3"``. The overlap profile is
@@ -218,6 +226,9 @@ def synthesise(catalogue: Catalogue, *, per_item: int = 1, sample: int | None = 
     WordNet from the usual folders; when it is missing, the styles that need it are
     skipped (listed in ``skipped_styles``). ``check_with`` names encoder specs whose
     fused top ``check_depth`` must contain a query's source for it to be kept.
+    Items every encoder in ``neighbours`` places among a source's ``neighbour_depth``
+    nearest are judged at ``related_grade`` too (see neighbours.py; ``()`` turns it off).
+    ``cache_dir`` is the embedding cache those encoders use.
     """
     mix = parse_mix(styles)
     default_mix = styles is None
@@ -235,6 +246,8 @@ def synthesise(catalogue: Catalogue, *, per_item: int = 1, sample: int | None = 
         raise UsageError("give either an overlap profile or queries to calibrate one, not both")
     if max_overlap is not None and not 0 < max_overlap <= 1:
         raise UsageError(f"max overlap {max_overlap} must be in (0, 1]")
+    if neighbours and neighbour_depth < 1:
+        raise UsageError(f"neighbour depth {neighbour_depth} must be >= 1")
     if check_with and check_depth < 1:
         raise UsageError(f"check depth {check_depth} must be >= 1")
     if len(catalogue) == 0:
@@ -296,7 +309,8 @@ def synthesise(catalogue: Catalogue, *, per_item: int = 1, sample: int | None = 
     target_of = {id(d): t for d, t in zip(drafts, targets)}
     merged = merge_near_duplicates(drafts)
     if check_with:
-        keep = round_trip_keep(catalogue, merged, check_with, check_depth, quiet=quiet)
+        keep = round_trip_keep(catalogue, merged, check_with, check_depth, quiet=quiet,
+                               cache_dir=cache_dir)
         for m, ok in zip(merged, keep):
             if not ok:
                 d = m.drafts[0]
@@ -304,10 +318,19 @@ def synthesise(catalogue: Catalogue, *, per_item: int = 1, sample: int | None = 
         merged = [m for m, ok in zip(merged, keep) if ok]
     width = max(4, len(str(len(merged))))
     final = {f"{qid_prefix}{k:0{width}d}": m for k, m in enumerate(merged, start=1)}
-    qrels = silver_qrels(final, catalogue, source_grade, related_grade)
+    near: dict[str, tuple[str, ...]] = {}
+    if neighbours and related_grade > 0:
+        near = consensus_neighbours(catalogue, {s for m in final.values() for s in m.sources},
+                                    neighbours, neighbour_depth, cache_dir, quiet)
+    qrels = silver_qrels(final, catalogue, source_grade, related_grade, near)
     provenance = tuple(_provenance(qid, m, catalogue, seed, target_of[id(m.drafts[0])])
                        for qid, m in final.items())
     summary = _summary(final, catalogue, dropped, profile, len(items), per_item, mix)
+    without = silver_qrels(final, catalogue, source_grade, related_grade)
+    summary["neighbours"] = {"encoders": list(neighbours) if near else [],
+                             "depth": neighbour_depth,
+                             "judgments_added": sum(len(qrels[q]) - len(without[q])
+                                                    for q in qrels)}
     return SilverSet({q: m.text for q, m in final.items()}, qrels, provenance, summary,
                      skipped)
 

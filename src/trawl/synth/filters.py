@@ -16,7 +16,7 @@ from .grading import Merged
 
 
 def round_trip_keep(catalogue: Catalogue, merged: Sequence[Merged], specs: Sequence[str],
-                    depth: int, quiet: bool = True) -> list[bool]:
+                    depth: int, quiet: bool = True, cache_dir=None) -> list[bool]:
     """For each merged query, whether a source is in the (fused) checkers' top ``depth``."""
     from ..index import retrieve
     from ..retrievers.fusion import reciprocal_rank_fusion
@@ -26,7 +26,8 @@ def round_trip_keep(catalogue: Catalogue, merged: Sequence[Merged], specs: Seque
     if not merged:
         return []
     queries = {f"c{k}": m.text for k, m in enumerate(merged)}
-    runs = [retrieve(catalogue, spec, queries, k=depth, quiet=quiet) for spec in specs]
+    runs = [retrieve(catalogue, spec, queries, k=depth, cache_dir=cache_dir, quiet=quiet)
+            for spec in specs]
     run = runs[0] if len(runs) == 1 else reciprocal_rank_fusion(runs, depth=depth)
     keep = []
     for k, m in enumerate(merged):

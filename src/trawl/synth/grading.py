@@ -79,10 +79,11 @@ def merge_near_duplicates(drafts: Sequence[Draft], threshold: float = NEAR_DUPLI
 
 
 def silver_qrels(merged: Mapping[str, Merged], catalogue: Catalogue,
-                 source_grade: int = SOURCE_GRADE, related_grade: int = RELATED_GRADE
-                 ) -> Qrels:
-    """Graded judgments per query id: sources at ``source_grade``, their related items at
-    ``related_grade`` (never lowering a grade already given)."""
+                 source_grade: int = SOURCE_GRADE, related_grade: int = RELATED_GRADE,
+                 neighbours: Mapping[str, Sequence[str]] | None = None) -> Qrels:
+    """Graded judgments per query id: sources at ``source_grade``, their related items
+    and ``neighbours`` (source id -> item ids) at ``related_grade`` (never lowering a
+    grade already given)."""
     out: Qrels = {}
     for qid, m in merged.items():
         grades: dict[str, int] = {}
@@ -90,7 +91,7 @@ def silver_qrels(merged: Mapping[str, Merged], catalogue: Catalogue,
             grades[src] = source_grade
         if related_grade > 0:
             for src in m.sources:
-                for rel in catalogue.by_id[src].related:
+                for rel in (*catalogue.by_id[src].related, *(neighbours or {}).get(src, ())):
                     if grades.get(rel, 0) < related_grade:
                         grades[rel] = related_grade
         out[qid] = grades

@@ -12,7 +12,7 @@ whose overlap with the item fits the target profile.
 from __future__ import annotations
 
 import random
-from collections.abc import Callable
+from collections.abc import Callable, Collection
 from dataclasses import dataclass, field
 
 from .lexicon import EMPTY, Lexicon
@@ -22,11 +22,23 @@ from .wordnet import WordNet
 MIN_ZIPF = 4.0  # about once per 100,000 words of ordinary text or more often
 SWAP_POS = ("n", "a")  # verb synonyms in WordNet are mostly phrasal and off-sense
 MAX_WORDS = 2  # longer WordNet lemmas ("force per unit area") read like definitions
+SENSES = 4  # senses of a word considered when choosing the one its item means
+MIN_FIT = 2  # shared stems needed to trust the item context over sense frequency
+MIN_USES = 2  # tagged uses a replacement needs: WordNet-only terms ("trial run") read oddly
+DOMINANT = 0.7  # share of a word's tagged uses its main sense needs for a blind swap
 
 
 @dataclass(frozen=True)
 class Rewording:
-    """The lexical resources paraphrasing draws on."""
+    """The lexical resources paraphrasing draws on.
+
+    A WordNet swap must keep the meaning, or it tells us nothing about how people who
+    use their own words would fare: a wrong-sense synonym ("plate" -> "home base")
+    confuses every system that reads meaning and leaves the rare exact words for
+    lexical matching. So the sense is chosen per item (simplified Lesk: the sense whose
+    gloss, lemmas and hypernyms share most stems with the item's words; ties go to the
+    more frequent sense), and a replacement is used only when that sense is its own
+    most frequent one, so a reader takes it the same way."""
 
     wordnet: WordNet | None = None
     lexicon: Lexicon = EMPTY
@@ -34,38 +46,88 @@ class Rewording:
     hypernyms: bool = False
     phrases: frozenset[tuple[str, str]] = frozenset()  # kept whole: swapping half a term breaks it
     known: Callable[[str], bool] | None = None  # words the catalogue's domain uses
-    _memo: dict[str, list[str]] = field(default_factory=dict, compare=False, repr=False)
+    _memo: dict[tuple[str, int], list[str]] = field(default_factory=dict, compare=False,
+                                                    repr=False)
+    _signatures: dict[tuple[str, int], frozenset[str]] = field(
+        default_factory=dict, compare=False, repr=False)
 
-    def alternatives(self, word: str) -> list[str]:
-        """Common synonyms, then (for nouns) hypernyms, of one word in the part of speech
-        it is usually used in (no lexicon)."""
+    def sense(self, word: str, pos: str, context: Collection[str] = ()) -> int | None:
+        """The offset of the sense of ``word`` its item means, or None when unsure: the
+        sense whose signature shares most stems with ``context`` (the item's words) when
+        one clearly does, else the word's dominant sense in WordNet's tagged corpus."""
+        wn = self.wordnet
+        bases = wn.base_forms(word, pos) if wn else []
+        if not bases:
+            return None
+        offsets = wn.senses(bases[0], pos)
+        if len(offsets) == 1:
+            return offsets[0]
+        top = offsets[:SENSES]
+        own, ctx = stem(word), set(context)
+        fit = [len((self._signature(pos, off) - {own}) & ctx) for off in top]
+        best = max(range(len(top)), key=lambda k: (fit[k], -k))
+        if fit[best] >= MIN_FIT and sorted(fit)[-2] < fit[best]:
+            return top[best]
+        return _dominant(wn, bases[0], pos)
+
+    def _signature(self, pos: str, offset: int) -> frozenset[str]:
+        key = (pos, offset)
+        if key not in self._signatures:
+            wn = self.wordnet
+            syn = wn.synset(pos, offset) if wn else None
+            text = ""
+            if syn is not None:
+                hyper = [wn.synset(p, o) for p, o in syn.hypernyms if p == pos]
+                text = " ".join([syn.gloss, *syn.lemmas]
+                                + [" ".join(h.lemmas) for h in hyper if h])
+            self._signatures[key] = frozenset(stem(w) for w in words(text) if is_content(w))
+        return self._signatures[key]
+
+    def alternatives(self, word: str, context: Collection[str] = ()) -> list[str]:
+        """Common words that mean what ``word`` means in ``context`` (the item's stems):
+        synonyms, then (when enabled) hypernyms, of the fitting sense in the part of
+        speech the word is usually used in (no lexicon)."""
         if self.wordnet is None:
             return []
-        if word not in self._memo:
-            self._memo[word] = self._alternatives(word)
-        return self._memo[word]
+        pos = self.wordnet.usual_pos(word)
+        if pos not in SWAP_POS:
+            return []
+        off = self.sense(word, pos, context)
+        if off is None:
+            return []
+        key = (word, off)
+        if key not in self._memo:
+            self._memo[key] = self._alternatives(word, pos, off)
+        return self._memo[key]
 
-    def _alternatives(self, word: str) -> list[str]:
+    def _alternatives(self, word: str, pos: str, offset: int) -> list[str]:
         from wordfreq import zipf_frequency
 
         wn = self.wordnet
-        pos = wn.usual_pos(word)
-        if pos not in SWAP_POS:
-            return []
+        syn = wn.synset(pos, offset)
+        if syn is None or any(_numeral(x) for x in syn.lemmas):
+            return []  # numbers: "three" -> "iii" is no paraphrase
         own = {stem(word)} | set(wn.base_forms(word, pos))
+        targets = [(syn, offset)]
+        if self.hypernyms:
+            targets += [(wn.synset(p, o), o) for p, o in syn.hypernyms if p == pos]
         out: list[str] = []
-        related = wn.synonyms(word, pos) + (wn.hypernyms(word, pos) if self.hypernyms else [])
-        for alt in related:
-            parts = alt.split()
-            if (alt not in out and len(parts) <= MAX_WORDS
-                    and not own & ({stem(p) for p in parts} | set(parts))
-                    and all(zipf_frequency(p, "en") >= self.min_zipf for p in parts)
-                    and (self.known is None or all(self.known(p) for p in parts))):
-                out.append(alt)
+        for target, off in targets:
+            for alt in target.lemmas if target else ():
+                parts = alt.split()
+                if (alt not in out and len(parts) <= MAX_WORDS
+                        and not own & ({stem(p) for p in parts} | set(parts))
+                        and _dominant(wn, alt, pos) == off
+                        and sum(wn.sense_counts(alt, pos)) >= MIN_USES
+                        and all(zipf_frequency(p, "en") >= self.min_zipf for p in parts)
+                        and (self.known is None or all(self.known(p) for p in parts))):
+                    out.append(alt)
         return out
 
-    def reword(self, query: str, rate: float, rng: random.Random) -> str:
-        """Swap each swappable phrase of ``query`` with probability ``rate``."""
+    def reword(self, query: str, rate: float, rng: random.Random,
+               context: Collection[str] = ()) -> str:
+        """Swap each swappable phrase of ``query`` with probability ``rate``; WordNet
+        senses are chosen to fit ``context`` (the source item's stems)."""
         toks = words(query)
         out: list[str] = []
         k = 0
@@ -88,12 +150,29 @@ class Rewording:
                     out.extend(toks[k:k + 2])
                     k += 2
                     continue
-                alts = self.alternatives(w) if is_content(w) else []
+                alts = self.alternatives(w, context) if is_content(w) else []
                 out.append(rng.choice(alts) if alts and rng.random() < rate else w)
                 k += 1
         return " ".join(out)
 
 
+def _dominant(wn: WordNet, lemma: str, pos: str) -> int | None:
+    """``lemma``'s sense when it has one, or one that holds DOMINANT of its tagged uses."""
+    offsets = wn.senses(lemma, pos)
+    if len(offsets) == 1:
+        return offsets[0]
+    counts = wn.sense_counts(lemma, pos)
+    total = sum(counts)
+    if offsets and total and counts[0] >= DOMINANT * total:
+        return offsets[0]
+    return None
+
+
+def _numeral(lemma: str) -> bool:
+    return lemma.isdigit() or lemma.replace(".", "").isdigit()
+
+
+DROP_ONE_AT, DROP_TWO_AT = 3, 4  # item words in a query before its rarest one or two go
 RATES = (0.35, 0.5, 0.65, 0.8, 1.0)
 GERUND_TO_BASE = 0.7  # "renewing loans" -> "renew loans": people type tasks in base form
 NUMBER_FLIP = 0.5  # singular or plural is the writer's choice, not the item's
@@ -118,14 +197,16 @@ def retype(query: str, wordnet: WordNet | None, rng: random.Random) -> str:
         return query
     toks = query.split()
     for k, w in enumerate(toks):
-        if w.endswith("ing") and w.isalpha() and rng.random() < GERUND_TO_BASE:
+        if w.endswith("ing") and w.isalpha() and not wordnet.senses(w, "a") \
+                and rng.random() < GERUND_TO_BASE:
             bases = wordnet.base_forms(w, "v")
             if bases and bases[0] != w:
                 toks[k] = bases[0]
     if toks and toks[-1].isalpha() and is_content(toks[-1]) and rng.random() < NUMBER_FLIP:
         w = toks[-1]
         bases = wordnet.base_forms(w, "n")
-        singular = [b for b in bases if b != w and " " not in b]
+        # a word that is a lemma itself is taken as singular ("pass", not "pas")
+        singular = [] if w in bases else [b for b in bases if b != w and " " not in b]
         if singular:
             toks[-1] = singular[0]
         elif bases and len(w) > 3 and not w.endswith("s"):
@@ -133,11 +214,25 @@ def retype(query: str, wordnet: WordNet | None, rng: random.Random) -> str:
     return " ".join(toks)
 
 
-def paraphrases(base: str, rewording: Rewording, rng: random.Random) -> list[str]:
-    """Rewordings of ``base`` at increasing swap rates (duplicates and ``base`` removed)."""
+def drop_rarest(query: str, item_stems: Collection[str], idf: Callable[[str], float]) -> str:
+    """Leave out the item's rarest word (two when four or more remain): people seldom
+    know an item's most specific term before they have found it, and a query that keeps
+    every rare word hands the search to exact-word matching. Only words the item uses
+    count, and at least two of them stay."""
+    toks = query.split()
+    mine = [k for k, w in enumerate(toks) if is_content(w) and stem(w) in item_stems]
+    n = 2 if len(mine) >= DROP_TWO_AT else 1 if len(mine) >= DROP_ONE_AT else 0
+    gone = set(sorted(mine, key=lambda k: (-idf(toks[k]), k))[:n])
+    return " ".join(w for k, w in enumerate(toks) if k not in gone)
+
+
+def paraphrases(base: str, rewording: Rewording, rng: random.Random,
+                context: Collection[str] = ()) -> list[str]:
+    """Rewordings of ``base`` at increasing swap rates (duplicates and ``base`` removed);
+    ``context`` is the source item's stems, which pick the WordNet senses."""
     out: list[str] = []
     for rate in RATES:
-        q = retype(rewording.reword(base, rate, rng), rewording.wordnet, rng)
+        q = retype(rewording.reword(base, rate, rng, context), rewording.wordnet, rng)
         if q != base and q not in out:
             out.append(q)
     return out

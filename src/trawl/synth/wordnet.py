@@ -2,8 +2,8 @@
 
 Reads ``index.*``, ``data.*`` and ``*.exc`` straight from a folder such as Debian's
 ``/usr/share/wordnet`` (package ``wordnet-base``), so no extra Python package or corpus
-download is needed. Only what paraphrasing uses is kept: synonyms and hypernyms of the
-most frequent senses of a word.
+download is needed. Only what paraphrasing uses is kept: senses in frequency order, their
+lemmas, glosses and hypernyms.
 """
 
 from __future__ import annotations
@@ -31,6 +31,7 @@ DETACH = {
 class Synset:
     lemmas: tuple[str, ...]
     hypernyms: tuple[tuple[str, int], ...]  # (pos, offset)
+    gloss: str = ""  # definition and example sentences
 
 
 class WordNet:
@@ -53,6 +54,7 @@ class WordNet:
             self._data[pos] = _read(folder / f"data.{name}")
             self.exceptions[pos] = _read_exc(folder / f"{name}.exc")
         self._senses: dict[tuple[str, str], tuple[int, tuple[int, ...]]] = {}
+        self._counts: dict[tuple[str, str], dict[int, int]] | None = None
         self._synsets: dict[tuple[str, int], Synset | None] = {}
 
     def senses(self, lemma: str, pos: str) -> tuple[int, ...]:
@@ -108,6 +110,19 @@ class WordNet:
                     out.append(cand)
         return out
 
+    def sense_counts(self, lemma: str, pos: str) -> tuple[int, ...]:
+        """How often each sense of ``lemma`` (in ``senses`` order) was seen in WordNet's
+        tagged corpus (``cntlist.rev``, cntlist(5WN)); zeros when the file is missing."""
+        if self._counts is None:
+            self._counts = _read_counts(Path(self.folder) / "cntlist.rev")
+        got = self._counts.get((lemma.replace(" ", "_"), pos), {})
+        return tuple(got.get(k, 0) for k in range(1, len(self.senses(lemma, pos)) + 1))
+
+    def sense_offsets(self, word: str, pos: str) -> tuple[int, ...]:
+        """Synset offsets of ``word``'s first base form, most frequent sense first."""
+        bases = self.base_forms(word, pos)
+        return self.senses(bases[0], pos) if bases else ()
+
     def synonyms(self, word: str, pos: str, senses: int = 1) -> list[str]:
         """Other lemmas in the ``senses`` most frequent synsets of ``word``."""
         return self._related(word, pos, senses, hyper=False)
@@ -159,7 +174,8 @@ def _parse_index(line: str) -> tuple[int, tuple[int, ...]]:
 
 def _parse_data(line: str) -> Synset:
     # offset lex_filenum ss_type w_cnt(hex) [word lex_id]... p_cnt [sym offset pos src/tgt]...
-    f = line.split(" | ", 1)[0].split()
+    head, _, gloss = line.partition(" | ")
+    f = head.split()
     n_words = int(f[3], 16)
     lemmas = tuple(_lemma(f[4 + 2 * k]) for k in range(n_words))
     at = 4 + 2 * n_words
@@ -168,13 +184,31 @@ def _parse_data(line: str) -> Synset:
         sym, off, p = f[at + 1 + 4 * k: at + 4 + 4 * k]
         if sym in ("@", "@i"):
             hyper.append(("a" if p == "s" else p, int(off)))
-    return Synset(lemmas, tuple(hyper))
+    return Synset(lemmas, tuple(hyper), gloss.strip())
 
 
 def _lemma(raw: str) -> str:
     # adjective markers such as "(a)" and "(p)" follow the word; underscores join words
     word = raw.split("(", 1)[0]
     return word.replace("_", " ").lower()
+
+
+SS_TYPES = {"1": "n", "2": "v", "3": "a", "4": "r", "5": "a"}
+
+
+def _read_counts(path: Path) -> dict[tuple[str, str], dict[int, int]]:
+    # sense_key sense_number tag_cnt; sense_key = lemma%ss_type:lex_filenum:lex_id:head:id
+    out: dict[tuple[str, str], dict[int, int]] = {}
+    for line in _read(path).decode("utf-8", "replace").split("\n"):
+        f = line.split()
+        if len(f) != 3 or "%" not in f[0] or not (f[1].isdigit() and f[2].isdigit()):
+            continue
+        lemma, _, rest = f[0].partition("%")
+        pos = SS_TYPES.get(rest[:1])
+        if pos:
+            slot = out.setdefault((lemma.lower(), pos), {})
+            slot[int(f[1])] = slot.get(int(f[1]), 0) + int(f[2])
+    return out
 
 
 def _read_exc(path: Path) -> dict[str, str]:
