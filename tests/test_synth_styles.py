@@ -119,7 +119,8 @@ def test_synthesise_is_deterministic_and_seed_sensitive(tmp_path):
 
 
 def test_silver_grades_source_2_related_1_and_provenance():
-    s = synthesise(CAT, per_item=1, styles="keyword", profile=NO_PROFILE, quiet=True)
+    s = synthesise(CAT, per_item=1, styles="keyword", profile=NO_PROFILE, quiet=True,
+                   neighbours=())  # consensus neighbours are tested on their own
     for rec in s.provenance:
         grades = s.qrels[rec["qid"]]
         assert grades[rec["source"]] == 2
@@ -143,7 +144,8 @@ def test_near_duplicates_are_merged_and_every_source_judged():
 def test_same_query_from_two_items_is_one_query_judging_both():
     twin = Catalogue("twins", (Item("a", "article", "Lost library card", "Report a lost card."),
                                Item("b", "faq", "Lost library card", "Report a lost card.")))
-    s = synthesise(twin, per_item=4, styles="keyword", profile=NO_PROFILE, seed=3, quiet=True)
+    s = synthesise(twin, per_item=4, styles="keyword", profile=NO_PROFILE, seed=3, quiet=True,
+                   neighbours=())  # here every item would be the other's neighbour
     # two items with the same words and four draws each must produce a shared query
     assert len(set(s.queries.values())) == len(s.queries)
     both = [q for q, g in s.qrels.items() if set(g) == {"a", "b"}]

@@ -67,14 +67,50 @@ def test_usual_part_of_speech_and_paraphrase_rules():
     assert (wn.usual_pos("card"), wn.usual_pos("quickly"), wn.usual_pos("cancel")) == \
         ("n", "r", "v")
     rw = Rewording(wn)
-    # first-sense noun synonyms of "rubbish" that are common words (wordfreq Zipf >= 4)
-    assert "trash" in rw.alternatives("rubbish")
+    # WordNet 3.0 cntlist.rev: "car" sense 1 (automobile) has 71 of 73 tagged uses, and
+    # "auto" is a common word (wordfreq Zipf >= 4) whose only sense is that one
+    assert "auto" in rw.alternatives("car")
     assert rw.alternatives("cancel") == []  # verbs are not swapped
     # "boundary layer" is a WordNet noun lemma, so it is kept whole even at swap rate 1
-    out = rw.reword("boundary layer rubbish", 1.0, random.Random(0))
-    assert out.startswith("boundary layer ") and not out.endswith("rubbish")
-    protected = Rewording(wn, phrases=frozenset({("rubbish", "bin")}))
-    assert protected.reword("rubbish bin", 1.0, random.Random(0)) == "rubbish bin"
+    out = rw.reword("boundary layer car", 1.0, random.Random(0))
+    assert out.startswith("boundary layer ") and not out.endswith("car")
+    protected = Rewording(wn, phrases=frozenset({("car", "park")}))
+    assert protected.reword("car park", 1.0, random.Random(0)) == "car park"
+
+
+@pytest.mark.skipif(REAL is None, reason="WordNet 3.0 not installed (Debian wordnet-base)")
+def test_swaps_keep_the_sense_the_item_means():
+    from trawl.synth.paraphrase import Rewording
+
+    wn = load_wordnet()
+    rw = Rewording(wn)
+    # cntlist.rev: "complaint" is tagged 3x as an ailment, 3x in three other senses, so
+    # without context it has no dominant sense and "ill" (ailment) is never offered
+    assert wn.sense_counts("complaint", "n")[:4] == (3, 1, 1, 1)
+    assert rw.alternatives("complaint") == []
+    # "plate": no sense holds 70% of its uses, so no "home base" for a flat plate
+    assert "home base" not in rw.alternatives("plate")
+    # numbers are not reworded ("three" -> "iii")
+    assert rw.alternatives("three") == []
+    # WordNet-only terms with under two tagged uses are not offered ("passenger vehicle")
+    assert "passenger vehicle" not in rw.alternatives("bus")
+    # the item's words pick the sense (simplified Lesk): a photographer's "model" is the
+    # synset {model, poser} (data.noun offset 10324560), not the first sense
+    ctx = {"photograph", "photographer", "person", "pose", "painter", "sculptor"}
+    assert rw.sense("model", "n", ctx) == 10324560
+    assert rw.sense("model", "n") is None  # no context, no dominant sense: left alone
+
+
+def test_drop_rarest_leaves_out_the_items_rarest_words():
+    from trawl.synth.paraphrase import drop_rarest
+
+    idf = {"gyroscopic": 6.0, "propeller": 4.0, "rigid": 3.0, "effect": 1.0, "spin": 5.0}.get
+    stems = {"gyroscopic", "propeller", "rigid", "effect"}
+    # four item words: the two rarest go; "spin" is not the item's word and stays
+    assert drop_rarest("gyroscopic effect rigid propeller spin", stems, idf) == \
+        "effect rigid spin"
+    assert drop_rarest("gyroscopic rigid effect", stems, idf) == "rigid effect"
+    assert drop_rarest("rigid effect spin", stems, idf) == "rigid effect spin"
 
 
 @pytest.mark.skipif(REAL is None, reason="WordNet 3.0 not installed (Debian wordnet-base)")

@@ -397,7 +397,19 @@ def _rank(r: float) -> str:
                    "in its top --check-depth. Off by default: a checker favours its kind.")
 @click.option("--check-depth", type=int, default=None, help="Depth of --check-with [20].")
 @click.option("--related-grade", type=int, default=1, show_default=True,
-              help="Grade of items in the source's 'related' field (0: not judged).")
+              help="Grade of items in the source's 'related' field and of its consensus "
+                   "neighbours (0: neither is judged).")
+@click.option("--neighbours", "neighbour_specs", multiple=True, metavar="SPEC",
+              help="Encoders that must all place an item among the source's nearest for "
+                   "it to be judged at --related-grade [minilm and bm25].")
+@click.option("--neighbour-depth", type=click.IntRange(1), default=None,
+              help="How many nearest items each --neighbours encoder offers [10, fewer in "
+                   "catalogues under 400 items].")
+@click.option("--no-neighbours", is_flag=True,
+              help="Judge only the source and its 'related' items.")
+@click.option("--cache", "cache_dir", type=click.Path(file_okay=False), default=None,
+              help="Embedding cache for the --neighbours and --check-with encoders "
+                   "[~/.cache/trawl].")
 @click.option("--typo-rate", type=float, default=0.15, show_default=True,
               help="Chance that a word of 4+ letters gets a typo (typo style).")
 @click.option("--llm-url", default=None, help="OpenAI-compatible server for the llm style.")
@@ -420,11 +432,14 @@ def _rank(r: float) -> str:
 def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles: str | None,
           seed: int, lexicon: str | None, wordnet_dir: str | None, calibrate_with: str | None,
           max_overlap: float | None, check_with: tuple[str, ...], check_depth: int | None,
-          related_grade: int, typo_rate: float, llm_url: str | None, llm_model: str | None,
+          related_grade: int, neighbour_specs: tuple[str, ...], neighbour_depth: int | None,
+          no_neighbours: bool, cache_dir: str | None, typo_rate: float,
+          llm_url: str | None, llm_model: str | None,
           llm_examples: str | None, llm_timeout: float, llm_retries: int, llm_key_env: str,
           no_scrub: bool, template: str | None, as_json: bool, quiet: bool) -> None:
     """Synthesise pseudo-queries with graded silver judgments: the source item is grade 2,
-    its related items grade 1. Prints queries per style and destination type, their
+    its related items and the items both a dense and a lexical encoder place among its
+    ten nearest grade 1. Prints queries per style and destination type, their
     length and their word overlap with the source item.
 
     Silver judgments are estimates made by a program, not by people.
@@ -443,6 +458,7 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
     from .synth import LlmClient, load_wordnet, read_lexicon, synthesise, write_silver
     from .synth.llm import PromptScrubber, keep_text
     from .synth.compose import parse_mix
+    from .synth.neighbours import NEIGHBOUR_SPECS
 
     mix = parse_mix(styles)
     if (llm_url is None) != (llm_model is None):
@@ -454,6 +470,8 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
                          "--styles keyword,paraphrase,llm:2")
     if no_scrub and llm_url is None:
         raise UsageError("--no-scrub applies to LLM prompts; it needs --llm-url")
+    if no_neighbours and (neighbour_specs or neighbour_depth is not None):
+        raise UsageError("--no-neighbours contradicts --neighbours/--neighbour-depth")
     if check_depth is not None and not check_with:
         raise UsageError("--check-depth needs --check-with")
     wordnet = "auto"
@@ -474,7 +492,9 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
         calibration_source=calibrate_with or "", max_overlap=max_overlap,
         check_with=check_with, check_depth=check_depth or 20,
         lexicon=read_lexicon(lexicon) if lexicon else None, wordnet=wordnet, llm=llm,
-        typo_rate=typo_rate, related_grade=related_grade, quiet=quiet)
+        typo_rate=typo_rate, related_grade=related_grade,
+        neighbours=() if no_neighbours else neighbour_specs or NEIGHBOUR_SPECS,
+        neighbour_depth=neighbour_depth, cache_dir=cache_dir, quiet=quiet)
     paths = write_silver(prefix, silver)
     scrubbed = llm.scrubbed if llm is not None else None
     if as_json:
@@ -498,6 +518,11 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
     click.echo(f"overlap = share of query words found in the source item (mean "
                f"{s['mean_overlap']}); profile: {s['profile']['source']}, ceiling "
                f"{s['profile']['ceiling']}")
+    nb = s["neighbours"]
+    if nb["encoders"]:
+        click.echo(f"{nb['judgments_added']} neighbour judgments at grade {related_grade} "
+                   f"(items {' and '.join(nb['encoders'])} all place among a source's "
+                   f"{nb['depth']} nearest)")
     click.echo("Silver judgments are estimates, not human labels; see DEVELOPERS.md "
                "'How good is silver?' for their measured agreement with people.")
     if scrubbed is not None:

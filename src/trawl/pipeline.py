@@ -672,7 +672,10 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
         else:
             say(f"distil static encoder from the bundled model into {static_dir}")
             distill_static(static_dir, quiet=quiet)
-    silver = synthesise(cat, sample=sample, seed=seed, quiet=quiet)
+    cache = cache_dir if cache_dir is not None else out / "cache"
+    # two slots per item: on this catalogue's short titles one slot leaves ~30 queries
+    silver = synthesise(cat, per_item=2, sample=sample, seed=seed, cache_dir=cache,
+                        quiet=quiet)
     prefix = out / "silver" / "quillfern-silver"
     write_silver(prefix, silver)
     say(f"synthesise silver queries: {len(silver.queries)} queries from "
@@ -683,7 +686,6 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
                         "gold set", silver=False,
                         how="written and judged by hand for the demo catalogue")]
     return evaluate(cat, sets, specs, out, fuse=fuse, resamples=resamples, seed=seed,
-                    cache_dir=cache_dir if cache_dir is not None else out / "cache",
-                    agreement=("silver", "gold") if len(specs) + len(fuse) >= 2 else None,
+                    cache_dir=cache, agreement=("silver", "gold") if len(specs) + len(fuse) >= 2 else None,
                     title="Quillfern Regional Transit: rider app search", retime=retime,
                     quiet=quiet, notify=notify)

@@ -33,7 +33,8 @@ from .grading import (RELATED_GRADE, SOURCE_GRADE, Draft, Merged, merge_near_dup
 from .keyword import keyword_query, title_phrase
 from .lexicon import EMPTY, Lexicon
 from .llm import LlmClient
-from .neighbours import NEIGHBOUR_DEPTH, NEIGHBOUR_SPECS, consensus_neighbours
+from .neighbours import NEIGHBOUR_SPECS, consensus_neighbours
+from .neighbours import neighbour_depth as default_neighbour_depth
 from .overlap import OverlapProfile, overlap
 from .paraphrase import Rewording, drop_rarest, paraphrases
 from .question import question_query
@@ -216,7 +217,7 @@ def synthesise(catalogue: Catalogue, *, per_item: int = 1, sample: int | None = 
                typo_rate: float = DEFAULT_RATE, source_grade: int = SOURCE_GRADE,
                related_grade: int = RELATED_GRADE,
                neighbours: Sequence[str] = NEIGHBOUR_SPECS,
-               neighbour_depth: int = NEIGHBOUR_DEPTH, cache_dir: str | Path | None = None,
+               neighbour_depth: int | None = None, cache_dir: str | Path | None = None,
                qid_prefix: str = "syn", quiet: bool = False) -> SilverSet:
     """Synthesise ``per_item`` queries for each (sampled) item, with silver judgments.
 
@@ -227,7 +228,8 @@ def synthesise(catalogue: Catalogue, *, per_item: int = 1, sample: int | None = 
     skipped (listed in ``skipped_styles``). ``check_with`` names encoder specs whose
     fused top ``check_depth`` must contain a query's source for it to be kept.
     Items every encoder in ``neighbours`` places among a source's ``neighbour_depth``
-    nearest are judged at ``related_grade`` too (see neighbours.py; ``()`` turns it off).
+    nearest (default: 10, fewer in catalogues under 400 items) are judged at
+    ``related_grade`` too (see neighbours.py; ``()`` turns it off).
     ``cache_dir`` is the embedding cache those encoders use.
     """
     mix = parse_mix(styles)
@@ -246,6 +248,8 @@ def synthesise(catalogue: Catalogue, *, per_item: int = 1, sample: int | None = 
         raise UsageError("give either an overlap profile or queries to calibrate one, not both")
     if max_overlap is not None and not 0 < max_overlap <= 1:
         raise UsageError(f"max overlap {max_overlap} must be in (0, 1]")
+    if neighbour_depth is None:
+        neighbour_depth = default_neighbour_depth(len(catalogue))
     if neighbours and neighbour_depth < 1:
         raise UsageError(f"neighbour depth {neighbour_depth} must be >= 1")
     if check_with and check_depth < 1:

@@ -20,18 +20,28 @@ from ..catalogue import Catalogue
 from ..errors import UsageError
 
 NEIGHBOUR_SPECS = ("minilm", "bm25")
-NEIGHBOUR_DEPTH = 10
+NEIGHBOUR_DEPTH = 10  # at most; see neighbour_depth
+CATALOGUE_SHARE = 0.025  # ... and at most this share of the catalogue, at least 1
 MAX_CHARS = 2000  # longer text adds little to either encoder and slows lexical search
 
 
+def neighbour_depth(n_items: int) -> int:
+    """How far to look: NEIGHBOUR_DEPTH, but no more than CATALOGUE_SHARE of a small
+    catalogue (in a 20-item catalogue the top 10 would make half of it relevant)."""
+    return max(1, min(NEIGHBOUR_DEPTH, round(n_items * CATALOGUE_SHARE)))
+
+
 def consensus_neighbours(catalogue: Catalogue, sources: Iterable[str],
-                         specs: Sequence[str] = NEIGHBOUR_SPECS,
-                         depth: int = NEIGHBOUR_DEPTH, cache_dir: str | Path | None = None,
-                         quiet: bool = True) -> dict[str, tuple[str, ...]]:
+                         specs: Sequence[str] = NEIGHBOUR_SPECS, depth: int | None = None,
+                         cache_dir: str | Path | None = None, quiet: bool = True
+                         ) -> dict[str, tuple[str, ...]]:
     """For each source id, the items (in the first encoder's order) that every encoder
-    in ``specs`` ranks in the source's top ``depth`` other items."""
+    in ``specs`` ranks in the source's top ``depth`` other items (default:
+    ``neighbour_depth`` of the catalogue's size)."""
     from ..index import retrieve
 
+    if depth is None:
+        depth = neighbour_depth(len(catalogue))
     if depth < 1:
         raise UsageError(f"neighbour depth {depth} must be >= 1")
     ids = sorted(set(sources))
@@ -42,7 +52,8 @@ def consensus_neighbours(catalogue: Catalogue, sources: Iterable[str],
     for spec in specs:
         run = retrieve(catalogue, spec, queries, k=depth + 1, cache_dir=cache_dir,
                        quiet=quiet)
-        tops.append({i: [d for d, _ in run.results.get(i, ()) if d != i][:depth]
+        # a score of 0 or less is no match (bm25 pads its list with such items)
+        tops.append({i: [d for d, sc in run.results.get(i, ()) if d != i and sc > 0][:depth]
                      for i in ids})
     out = {}
     for i in ids:

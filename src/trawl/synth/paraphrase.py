@@ -205,8 +205,9 @@ def retype(query: str, wordnet: WordNet | None, rng: random.Random) -> str:
     if toks and toks[-1].isalpha() and is_content(toks[-1]) and rng.random() < NUMBER_FLIP:
         w = toks[-1]
         bases = wordnet.base_forms(w, "n")
-        # a word that is a lemma itself is taken as singular ("pass", not "pas")
-        singular = [] if w in bases else [b for b in bases if b != w and " " not in b]
+        # a base form rarer than the word itself is no singular ("pass" is not "pas"s)
+        singular = [b for b in bases if b != w and " " not in b
+                    and wordnet.tagged(b, "n") >= wordnet.tagged(w, "n")]
         if singular:
             toks[-1] = singular[0]
         elif bases and len(w) > 3 and not w.endswith("s"):
