@@ -389,7 +389,7 @@ def _rank(r: float) -> str:
 @click.option("--calibrate-with", type=click.Path(dir_okay=False), default=None,
               metavar="QUERIES.tsv",
               help="Real, unjudged queries (e.g. a search-log sample) to match the overlap "
-                   "profile to. Default profile: targets spread over 0-0.6.")
+                   "profile to. Default profile: targets spread over 0-0.6, ceiling 0.75.")
 @click.option("--max-overlap", type=float, default=None,
               help="Drop queries sharing more than this share of words with their item.")
 @click.option("--check-with", multiple=True, metavar="SPEC",

@@ -1,12 +1,14 @@
 """Paraphrase style: say what an item is about in words it does not use.
 
-Starts from a keyword or question query and swaps words for synonyms or hypernyms
-(WordNet's most frequent senses) and for the everyday wordings of the user's domain
-lexicon. Only *common* replacements are used (Zipf frequency >= ``min_zipf`` from the
-``wordfreq`` package): people reach for everyday words, and a rare synonym matches
-nothing in any system, which would leave only the lexical part of the comparison.
-Several rewordings at different swap rates are offered, so the caller can pick the one
-whose overlap with the item fits the target profile.
+Starts from the title's run of words, swaps words for WordNet synonyms of the sense the
+item means (see ``Rewording``) and for the everyday wordings of the user's domain
+lexicon, puts verbs and the head noun in the forms people type (``retype``) and leaves
+out the item's rarest words (``drop_rarest``). Only *common* replacements are used
+(Zipf frequency >= ``min_zipf`` from the ``wordfreq`` package): people reach for
+everyday words, and a rare synonym matches nothing in any system, which would leave only
+the lexical part of the comparison. Several rewordings at different swap rates are
+offered, so the caller can pick the one whose overlap with the item fits the target
+profile.
 """
 
 from __future__ import annotations

@@ -1,6 +1,6 @@
 """A small reader for the WordNet 3.0 database files (format: wndb(5), morphy(7WN)).
 
-Reads ``index.*``, ``data.*`` and ``*.exc`` straight from a folder such as Debian's
+Reads ``index.*``, ``data.*``, ``*.exc`` and ``cntlist.rev`` straight from a folder such as Debian's
 ``/usr/share/wordnet`` (package ``wordnet-base``), so no extra Python package or corpus
 download is needed. Only what paraphrasing uses is kept: senses in frequency order, their
 lemmas, glosses and hypernyms.
