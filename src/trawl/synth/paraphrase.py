@@ -212,7 +212,7 @@ def retype(query: str, wordnet: WordNet | None, rng: random.Random) -> str:
                     and wordnet.tagged(b, "n") >= wordnet.tagged(w, "n")]
         if singular:
             toks[-1] = singular[0]
-        elif bases and len(w) > 3 and not w.endswith("s"):
+        elif bases and len(w) > 3 and not w.endswith(("s", "ing")):  # no "measurings"
             toks[-1] = plural(w)
     return " ".join(toks)
 
