@@ -24,13 +24,13 @@ from typing import Any
 
 from .errors import CatalogueError, UsageError
 from .files import decode_utf8
+from .ids import is_valid_id
 
 REQUIRED = ("id", "type", "title")
 KNOWN = ("id", "type", "title", "text", "deeplink", "related", "tags")
 FORMATS = {".jsonl": "jsonl", ".ndjson": "jsonl", ".csv": "csv", ".parquet": "parquet",
            ".pq": "parquet"}
 DEFAULT_TEMPLATE = "{title}\n{text}"
-_WHITESPACE = re.compile(r"\s")
 LIST_SEPARATOR = "|"  # CSV cells for related/tags: "a|b|c" or a JSON array
 CSV_FIELD_LIMIT = 2**31 - 1  # the csv module's 128 KiB default rejects long texts
 _SURROGATE = re.compile("[\ud800-\udfff]")
@@ -333,7 +333,7 @@ def _id_value(path: Path, n: int, rec: dict) -> str:
     if not v.strip():
         raise CatalogueError(path, "empty; every item needs a unique, non-empty id",
                              line=n, field="id")
-    if _WHITESPACE.search(v):
+    if not is_valid_id(v):
         raise CatalogueError(path, f"{v!r} contains white space, which TREC qrels and run "
                              "files cannot hold; use e.g. '-' or '_'", line=n, field="id")
     return v

@@ -7,6 +7,7 @@ from pathlib import Path
 
 from .errors import InputError
 from .files import atomic_write, read_text
+from .ids import is_valid_id
 
 
 def read_queries(path: str | Path) -> dict[str, str]:
@@ -28,7 +29,7 @@ def read_queries(path: str | Path) -> dict[str, str]:
         qid = qid.strip()
         if not qid:
             raise InputError(path, "empty query id", line=n, field="qid")
-        if any(c.isspace() for c in qid):
+        if not is_valid_id(qid):
             raise InputError(path, f"query id {qid!r} contains white space", line=n, field="qid")
         q = " ".join(q.replace("\t", " ").split())
         if not q:

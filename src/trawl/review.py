@@ -42,6 +42,7 @@ from .agreement import Proportion, cohen_kappa, wilson_interval
 from .catalogue import Catalogue, Item
 from .errors import InputError, UsageError
 from .files import atomic_write, read_text
+from .ids import is_valid_id
 from .judgments import Qrels
 from .privacy import KINDS, scrub
 from .runs import Run
@@ -595,7 +596,7 @@ def _parse_sheet(path: Path, records: Iterable[tuple[int, list[str]]],
 def _parse_row(path: Path, n: int, r: Mapping[str, str], catalogue: Catalogue,
                scale: int) -> SheetRow:
     qid = r["qid"].strip()
-    if not qid or any(c.isspace() for c in qid):
+    if not is_valid_id(qid):
         raise InputError(path, f"query id {qid!r} is empty or has white space", line=n,
                          field="qid")
     item = r["item_id"].strip()
