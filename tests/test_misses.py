@@ -116,3 +116,65 @@ def test_misses_command(files, tmp_path):
 def test_misses_command_needs_the_catalogue(files):
     res = invoke(["misses", files["qrels"], files["dense"]])
     assert res.exit_code == 2 and "--catalogue" in res.stderr
+
+
+# --- scrubbing the query text shown ---------------------------------------------------------
+
+# q3 is among the worst queries shown; q2 (hit at rank 1) is not. Shapes as in
+# tests/test_privacy.py.
+PERSONAL_QUERIES = {"q2": "train was late, refund to j.orrin@example.net",
+                    "q3": "dogs on buses, write to mara.quillen@example.org or ring "
+                          "+44 7700 900123"}
+
+
+@pytest.fixture
+def personal_queries(files):
+    texts = read_queries(files["queries"]) | PERSONAL_QUERIES
+    files["queries"].write_text("".join(f"{q}\t{t}\n" for q, t in texts.items()))
+    return files
+
+
+def test_query_text_is_scrubbed_on_request_and_counted(personal_queries):
+    f = personal_queries
+    args = (read_qrels(f["qrels"]), read_run(f["dense"]), load_catalogue(f["catalogue"]))
+    texts = read_queries(f["queries"])
+    rep = miss_table(*args, queries=texts, scrub_queries=True)
+    assert rep.worst[0].qid == "q3"
+    assert rep.worst[0].query == "dogs on buses, write to [email] or ring [phone]"
+    # counts cover every query text given, as evaluate(scrub_queries=True) counts them
+    assert rep.scrubbed == {"email": 2, "phone": 1, "postcode": 0, "number": 0}
+    assert rep.as_dict()["scrubbed"] == rep.scrubbed
+    assert texts["q3"] == PERSONAL_QUERIES["q3"]  # the caller's mapping is left alone
+    raw = miss_table(*args, queries=texts)
+    assert raw.worst[0].query == PERSONAL_QUERIES["q3"]
+    assert raw.scrubbed is None and "scrubbed" not in raw.as_dict()
+
+
+def test_misses_command_scrub(personal_queries):
+    f = personal_queries
+    base = ["misses", f["qrels"], f["dense"], "-c", f["catalogue"], "--queries", f["queries"]]
+    res = invoke([*base, "--scrub"])
+    assert res.exit_code == 0, res.output
+    assert ("    q3 \"dogs on buses, write to [email] or ring [phone]\": wanted faq-pets "
+            "('Can I bring my dog?') at rank 2") in res.stdout.splitlines()
+    assert "scrubbed from query text: 2 email, 1 phone" in res.stdout.splitlines()
+    assert "mara.quillen@example.org" not in res.stdout and "7700" not in res.stdout
+    js = invoke([*base, "--scrub", "--json"])
+    assert js.exit_code == 0
+    data = json.loads(js.stdout)
+    assert data["scrubbed"] == {"email": 2, "phone": 1, "postcode": 0, "number": 0}
+    assert data["worst"]["queries"][0]["query"] == "dogs on buses, write to [email] or ring [phone]"
+    plain = invoke(base)
+    assert plain.exit_code == 0
+    assert f"    q3 \"{PERSONAL_QUERIES['q3']}\": wanted faq-pets ('Can I bring my dog?') " \
+           "at rank 2" in plain.stdout.splitlines()
+    assert "scrubbed" not in plain.stdout
+    assert "scrubbed" not in json.loads(invoke([*base, "--json"]).stdout)
+
+
+def test_misses_command_scrub_needs_queries(files, tmp_path):
+    # rejected before any file is read: the qrels path does not exist
+    res = invoke(["misses", tmp_path / "absent.qrels", files["dense"], "-c", files["catalogue"],
+                  "--scrub"])
+    assert res.exit_code == 2
+    assert res.stderr == "error: --scrub applies to query text; it needs --queries\n"

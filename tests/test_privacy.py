@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from trawl.privacy import scrub
+from trawl.privacy import describe_counts, scrub, scrub_texts
 
 
 @pytest.mark.parametrize("text, expected, kind", [
@@ -48,3 +48,12 @@ def test_several_kinds_in_one_text_are_counted_separately():
     out, counts = scrub("a@b.example or +1 555 014 2233, card 123456789, QF1 2AB; x@y.example")
     assert out == "[email] or [phone], card [number], [postcode]; [email]"
     assert counts == {"email": 2, "phone": 1, "postcode": 1, "number": 1}
+
+
+def test_many_texts_keep_their_keys_and_add_up_their_counts():
+    out, counts = scrub_texts({"q1": "refund to a@b.example", "q2": "fare zones",
+                               "q3": "ring +44 7700 900123 or c@d.example"})
+    assert out == {"q1": "refund to [email]", "q2": "fare zones", "q3": "ring [phone] or [email]"}
+    assert counts == {"email": 2, "phone": 1, "postcode": 0, "number": 0}
+    assert describe_counts(counts) == "2 email, 1 phone"
+    assert describe_counts(scrub_texts({})[1]) == "nothing found"

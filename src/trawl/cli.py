@@ -911,12 +911,15 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, catalogue: 
               help="Worst queries listed per destination type.")
 @click.option("--queries", "queries_path", type=click.Path(dir_okay=False), default=None,
               help="Queries TSV, to show the text of the worst queries.")
+@click.option("--scrub", is_flag=True,
+              help="Replace e-mails, phone numbers, long digit runs and postcodes in the "
+                   "query text shown (needs --queries); prints how many were replaced.")
 @click.option("--csv", "csv_path", type=click.Path(dir_okay=False), default=None,
               metavar="PATH", help="Write the per-type table to PATH as CSV.")
 @silver_option
 @json_option
 def misses(qrels: str, run: str, catalogue: str, k: int, worst: int, queries_path: str | None,
-           csv_path: str | None, silver: bool, as_json: bool) -> None:
+           scrub: bool, csv_path: str | None, silver: bool, as_json: bool) -> None:
     """Where a run fails, by destination type of the wanted item: hit@1, hit@k, misses,
     median rank of the first relevant item, the types of what came first instead, and
     the worst queries with the item that won.
@@ -925,7 +928,10 @@ def misses(qrels: str, run: str, catalogue: str, k: int, worst: int, queries_pat
     Example:
       trawl misses qrels/quillfern-gold.qrels minilm.run -c corpora/quillfern.jsonl
       trawl misses silver.qrels bm25.run -c items.jsonl -k 5 --queries silver.queries.tsv
+      trawl misses logs.qrels bm25.run -c items.jsonl --queries logs.queries.tsv --scrub
     """
+    if scrub and queries_path is None:
+        raise UsageError("--scrub applies to query text; it needs --queries")
     from .catalogue import load_catalogue
     from .judgments import read_qrels
     from .misses import CSV_COLUMNS, miss_table, render_misses
@@ -937,7 +943,7 @@ def misses(qrels: str, run: str, catalogue: str, k: int, worst: int, queries_pat
 
         texts = read_queries(queries_path)
     rep = miss_table(read_qrels(qrels), read_run(run), load_catalogue(catalogue), k, worst,
-                     texts)
+                     texts, scrub_queries=scrub)
     if csv_path is not None:
         from .tables import write_csv
 

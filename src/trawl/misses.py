@@ -29,6 +29,7 @@ import numpy as np
 from .catalogue import Catalogue, Item
 from .errors import UsageError
 from .judgments import Qrels
+from .privacy import describe_counts, scrub_texts
 from .runs import Run
 from .scores import TYPE_RULE, query_types, run_warnings
 
@@ -93,13 +94,17 @@ class MissReport:
     worst: tuple[WorstQuery, ...]
     headline: str
     warnings: tuple[str, ...]
+    scrubbed: Mapping[str, int] | None = None  # kind -> count; None when not scrubbed
 
     def as_dict(self) -> dict[str, Any]:
-        return {"run": self.run, "k": self.k, "type_rule": TYPE_RULE,
-                "rows": [r.as_dict() for r in self.rows], "headline": self.headline,
-                "worst": {"run": self.run, "depth": self.depth,
-                          "queries": [w.as_dict() for w in self.worst]},
-                "warnings": list(self.warnings)}
+        out = {"run": self.run, "k": self.k, "type_rule": TYPE_RULE,
+               "rows": [r.as_dict() for r in self.rows], "headline": self.headline,
+               "worst": {"run": self.run, "depth": self.depth,
+                         "queries": [w.as_dict() for w in self.worst]},
+               "warnings": list(self.warnings)}
+        if self.scrubbed is not None:
+            out["scrubbed"] = dict(self.scrubbed)
+        return out
 
 
 def item_ref(item: Item) -> ItemRef:
@@ -137,15 +142,21 @@ def headline(run: str, rows: tuple[MissRow, ...]) -> str:
 
 
 def miss_table(qrels: Qrels, run: Run, catalogue: Catalogue, k: int = 10, worst: int = 5,
-               queries: Mapping[str, str] | None = None) -> MissReport:
+               queries: Mapping[str, str] | None = None,
+               scrub_queries: bool = False) -> MissReport:
     """The per-destination-type error table of one run, with ``worst`` queries per type.
 
-    ``queries`` (qid -> text) lets the worst-query list show what was asked.
+    ``queries`` (qid -> text) lets the worst-query list show what was asked;
+    ``scrub_queries`` replaces personal data in that text first (``privacy.scrub``) and
+    keeps the counts, over every text given, as ``evaluate(scrub_queries=True)`` does.
     """
     if k < 1:
         raise UsageError(f"k={k} must be at least 1, e.g. -k 10")
     if worst < 0:
         raise UsageError(f"worst={worst} must be 0 or more")
+    scrubbed = None
+    if scrub_queries:
+        queries, scrubbed = scrub_texts(queries or {})
     by_id = catalogue.by_id
     types, warnings = query_types(qrels, catalogue)
     warnings += run_warnings(qrels, run, catalogue)
@@ -193,7 +204,7 @@ def miss_table(qrels: Qrels, run: Run, catalogue: Catalogue, k: int = 10, worst:
                       for _, _, wq in sorted(candidates[t], key=lambda x: x[:2])[:worst])
     depth = max((len(p) for p in run.results.values()), default=0)
     return MissReport(run.name, k, depth, tuple(rows), worst_out, headline(run.name, tuple(rows)),
-                      tuple(warnings))
+                      tuple(warnings), scrubbed)
 
 
 CSV_COLUMNS = ("type", "queries", "hit_at_1", "hit_at_k", "misses", "median_rank", "not_found",
@@ -245,5 +256,7 @@ def render_misses(rep: MissReport, max_warnings: int = 20) -> str:
                 out.append(f"      first instead: {w.winner.id} [{w.winner.type}] "
                            f"({w.winner.title!r})")
     out.append(f"per type: {TYPE_RULE}")
+    if rep.scrubbed is not None:
+        out.append(f"scrubbed from query text: {describe_counts(rep.scrubbed)}")
     out.extend(warning_lines(rep.warnings, max_warnings))
     return "\n".join(out)

@@ -32,7 +32,7 @@ from .files import atomic_write, write_text_atomic
 from .judgments import Qrels, read_qrels
 from .metrics import DEFAULT_METRICS, parse_metrics
 from .privacy import KINDS as PRIVACY_KINDS
-from .privacy import scrub
+from .privacy import describe_counts, scrub_texts
 from .queries import read_queries
 from .retrievers import EncoderSpec, default_loader, parse_spec
 from .retrievers.fusion import RRF_K, reciprocal_rank_fusion
@@ -429,12 +429,11 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         scores = score_runs(ld.qrels, ordered, metric_names, cat, resamples, seed, alpha)
         comparison = compare_scores(scores, resamples, seed, alpha=alpha) if len(ordered) > 1 \
             else None
-        shown = dict(ld.queries)
+        shown = ld.queries
         if scrub_queries:
-            for qid, text in shown.items():
-                shown[qid], counts = scrub(text)
-                for kind, n in counts.items():
-                    scrubbed[kind] += n
+            shown, counts = scrub_texts(ld.queries)
+            for kind, n in counts.items():
+                scrubbed[kind] += n
         misses = [miss_table(ld.qrels, runs[n], cat, min(MISS_K, depth), WORST_QUERIES,
                              shown) for n in names]
         _write_tables(folder, scores, comparison, misses)
@@ -486,8 +485,7 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
 
 
 def scrub_note(counts: Mapping[str, int]) -> str:
-    found = ", ".join(f"{n} {kind}" for kind, n in counts.items() if n) or "nothing found"
-    return f"scrubbed from query text in the report: {found}"
+    return f"scrubbed from query text in the report: {describe_counts(counts)}"
 
 
 def _fused_throughput(latency: Mapping[str, Mapping[str, Any]], parts: Sequence[str]) -> float:

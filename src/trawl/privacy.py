@@ -10,6 +10,7 @@ placeholder is cheaper than a leaked phone number.
 from __future__ import annotations
 
 import re
+from collections.abc import Mapping
 
 # Order matters: e-mails first (their digits must not become phone numbers), then card
 # numbers written in groups of four, phone numbers (formatted digit groups), postcodes,
@@ -46,3 +47,20 @@ def scrub(text: str) -> tuple[str, dict[str, int]]:
             return f"[{kind}]"
         text = pattern.sub(replace, text)
     return text, counts
+
+
+def scrub_texts(texts: Mapping[str, str]) -> tuple[dict[str, str], dict[str, int]]:
+    """``scrub`` every value of ``{key: text}``; the counts are totals over all texts,
+    so an output can say how much it removed in one line."""
+    out: dict[str, str] = {}
+    totals = dict.fromkeys(KINDS, 0)
+    for key, text in texts.items():
+        out[key], counts = scrub(text)
+        for kind, n in counts.items():
+            totals[kind] += n
+    return out, totals
+
+
+def describe_counts(counts: Mapping[str, int]) -> str:
+    """``1 email, 2 phone``, or ``nothing found``: the words outputs print after scrubbing."""
+    return ", ".join(f"{n} {kind}" for kind, n in counts.items() if n) or "nothing found"
