@@ -79,7 +79,7 @@ def test_usual_part_of_speech_and_paraphrase_rules():
 
 
 @pytest.mark.skipif(REAL is None, reason="WordNet 3.0 not installed (Debian wordnet-base)")
-def test_swaps_keep_the_sense_the_item_means():
+def test_swaps_keep_the_dominant_sense():
     from trawl.synth.paraphrase import Rewording
 
     wn = load_wordnet()
@@ -94,11 +94,11 @@ def test_swaps_keep_the_sense_the_item_means():
     assert rw.alternatives("three") == []
     # WordNet-only terms with under two tagged uses are not offered ("passenger vehicle")
     assert "passenger vehicle" not in rw.alternatives("bus")
-    # the item's words pick the sense (simplified Lesk): a photographer's "model" is the
-    # synset {model, poser} (data.noun offset 10324560), not the first sense
-    ctx = {"photograph", "photographer", "person", "pose", "painter", "sculptor"}
-    assert rw.sense("model", "n", ctx) == 10324560
-    assert rw.sense("model", "n") is None  # no context, no dominant sense: left alone
+    # "model": 19 of 45 tagged uses in sense 1, so it is left alone; "car" sense 1 is
+    # data.noun offset 02958343 (car, auto, automobile, machine, motorcar)
+    assert wn.sense_counts("model", "n")[:3] == (19, 11, 6)
+    assert rw.sense("model", "n") is None and rw.alternatives("model") == []
+    assert rw.sense("cars", "n") == 2958343
 
 
 def test_drop_rarest_leaves_out_the_items_rarest_words():

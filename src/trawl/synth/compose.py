@@ -91,7 +91,7 @@ def _base(item: Item, tools: Tools, rng: random.Random) -> str:
 def _paraphrase(item: Item, tools: Tools, rng: random.Random) -> list[str]:
     base = _base(item, tools, rng)
     stems = tools.corpus.words[item.id].stems
-    out = paraphrases(base, tools.rewording, rng, stems) or [base]
+    out = paraphrases(base, tools.rewording, rng) or [base]
     return [drop_rarest(q, stems, tools.corpus.idf) for q in out]
 
 

@@ -1,7 +1,7 @@
 """Paraphrase style: say what an item is about in words it does not use.
 
-Starts from the title's run of words, swaps words for WordNet synonyms of the sense the
-item means (see ``Rewording``) and for the everyday wordings of the user's domain
+Starts from the title's run of words, swaps words for WordNet synonyms that keep the sense
+(see ``Rewording``) and for the everyday wordings of the user's domain
 lexicon, puts verbs and the head noun in the forms people type (``retype``) and leaves
 out the item's rarest words (``drop_rarest``). Only *common* replacements are used
 (Zipf frequency >= ``min_zipf`` from the ``wordfreq`` package): people reach for
@@ -24,8 +24,6 @@ from .wordnet import WordNet
 MIN_ZIPF = 4.0  # about once per 100,000 words of ordinary text or more often
 SWAP_POS = ("n", "a")  # verb synonyms in WordNet are mostly phrasal and off-sense
 MAX_WORDS = 2  # longer WordNet lemmas ("force per unit area") read like definitions
-SENSES = 4  # senses of a word considered when choosing the one its item means
-MIN_FIT = 2  # shared stems needed to trust the item context over sense frequency
 MIN_USES = 2  # tagged uses a replacement needs: WordNet-only terms ("trial run") read oddly
 DOMINANT = 0.7  # share of a word's tagged uses its main sense needs for a blind swap
 
@@ -37,10 +35,11 @@ class Rewording:
     A WordNet swap must keep the meaning, or it tells us nothing about how people who
     use their own words would fare: a wrong-sense synonym ("plate" -> "home base")
     confuses every system that reads meaning and leaves the rare exact words for
-    lexical matching. So the sense is chosen per item (simplified Lesk: the sense whose
-    gloss, lemmas and hypernyms share most stems with the item's words; ties go to the
-    more frequent sense), and a replacement is used only when that sense is its own
-    most frequent one, so a reader takes it the same way."""
+    lexical matching. So a word is swapped only when one sense holds most of its uses
+    in WordNet's tagged corpus, and a replacement only when that sense is its own
+    dominant one too, so a reader takes it the same way. (Choosing the sense from the
+    item's words, simplified Lesk, was tried: on short items half its choices were wrong,
+    "shapes" -> "human body", and agreement with people did not move.)"""
 
     wordnet: WordNet | None = None
     lexicon: Lexicon = EMPTY
@@ -48,59 +47,27 @@ class Rewording:
     hypernyms: bool = False
     phrases: frozenset[tuple[str, str]] = frozenset()  # kept whole: swapping half a term breaks it
     known: Callable[[str], bool] | None = None  # words the catalogue's domain uses
-    _memo: dict[tuple[str, int], list[str]] = field(default_factory=dict, compare=False,
-                                                    repr=False)
-    _signatures: dict[tuple[str, int], frozenset[str]] = field(
-        default_factory=dict, compare=False, repr=False)
+    _memo: dict[str, list[str]] = field(default_factory=dict, compare=False, repr=False)
 
-    def sense(self, word: str, pos: str, context: Collection[str] = ()) -> int | None:
-        """The offset of the sense of ``word`` its item means, or None when unsure: the
-        sense whose signature shares most stems with ``context`` (the item's words) when
-        one clearly does, else the word's dominant sense in WordNet's tagged corpus."""
-        wn = self.wordnet
-        bases = wn.base_forms(word, pos) if wn else []
-        if not bases:
-            return None
-        offsets = wn.senses(bases[0], pos)
-        if len(offsets) == 1:
-            return offsets[0]
-        top = offsets[:SENSES]
-        own, ctx = stem(word), set(context)
-        fit = [len((self._signature(pos, off) - {own}) & ctx) for off in top]
-        best = max(range(len(top)), key=lambda k: (fit[k], -k))
-        if fit[best] >= MIN_FIT and sorted(fit)[-2] < fit[best]:
-            return top[best]
-        return _dominant(wn, bases[0], pos)
+    def sense(self, word: str, pos: str) -> int | None:
+        """The offset of the sense ``word`` is read in, or None when it has no dominant
+        one (see ``_dominant``)."""
+        bases = self.wordnet.base_forms(word, pos) if self.wordnet else []
+        return _dominant(self.wordnet, bases[0], pos) if bases else None
 
-    def _signature(self, pos: str, offset: int) -> frozenset[str]:
-        key = (pos, offset)
-        if key not in self._signatures:
-            wn = self.wordnet
-            syn = wn.synset(pos, offset) if wn else None
-            text = ""
-            if syn is not None:
-                hyper = [wn.synset(p, o) for p, o in syn.hypernyms if p == pos]
-                text = " ".join([syn.gloss, *syn.lemmas]
-                                + [" ".join(h.lemmas) for h in hyper if h])
-            self._signatures[key] = frozenset(stem(w) for w in words(text) if is_content(w))
-        return self._signatures[key]
-
-    def alternatives(self, word: str, context: Collection[str] = ()) -> list[str]:
-        """Common words that mean what ``word`` means in ``context`` (the item's stems):
-        synonyms, then (when enabled) hypernyms, of the fitting sense in the part of
-        speech the word is usually used in (no lexicon)."""
+    def alternatives(self, word: str) -> list[str]:
+        """Common words that mean what ``word`` means: synonyms, then (when enabled)
+        hypernyms, of its dominant sense in the part of speech it is usually used in
+        (no lexicon)."""
         if self.wordnet is None:
             return []
         pos = self.wordnet.usual_pos(word)
         if pos not in SWAP_POS:
             return []
-        off = self.sense(word, pos, context)
-        if off is None:
-            return []
-        key = (word, off)
-        if key not in self._memo:
-            self._memo[key] = self._alternatives(word, pos, off)
-        return self._memo[key]
+        if word not in self._memo:
+            off = self.sense(word, pos)
+            self._memo[word] = [] if off is None else self._alternatives(word, pos, off)
+        return self._memo[word]
 
     def _alternatives(self, word: str, pos: str, offset: int) -> list[str]:
         from wordfreq import zipf_frequency
@@ -126,10 +93,8 @@ class Rewording:
                     out.append(alt)
         return out
 
-    def reword(self, query: str, rate: float, rng: random.Random,
-               context: Collection[str] = ()) -> str:
-        """Swap each swappable phrase of ``query`` with probability ``rate``; WordNet
-        senses are chosen to fit ``context`` (the source item's stems)."""
+    def reword(self, query: str, rate: float, rng: random.Random) -> str:
+        """Swap each swappable phrase of ``query`` with probability ``rate``."""
         toks = words(query)
         out: list[str] = []
         k = 0
@@ -152,7 +117,7 @@ class Rewording:
                     out.extend(toks[k:k + 2])
                     k += 2
                     continue
-                alts = self.alternatives(w, context) if is_content(w) else []
+                alts = self.alternatives(w) if is_content(w) else []
                 out.append(rng.choice(alts) if alts and rng.random() < rate else w)
                 k += 1
         return " ".join(out)
@@ -217,7 +182,8 @@ def retype(query: str, wordnet: WordNet | None, rng: random.Random) -> str:
     return " ".join(toks)
 
 
-def drop_rarest(query: str, item_stems: Collection[str], idf: Callable[[str], float]) -> str:
+def drop_rarest(query: str, item_stems: Collection[str], idf: Callable[[str], float]
+                ) -> str:
     """Leave out the item's rarest word (two when four or more remain): people seldom
     know an item's most specific term before they have found it, and a query that keeps
     every rare word hands the search to exact-word matching. Only words the item uses
@@ -229,13 +195,11 @@ def drop_rarest(query: str, item_stems: Collection[str], idf: Callable[[str], fl
     return " ".join(w for k, w in enumerate(toks) if k not in gone)
 
 
-def paraphrases(base: str, rewording: Rewording, rng: random.Random,
-                context: Collection[str] = ()) -> list[str]:
-    """Rewordings of ``base`` at increasing swap rates (duplicates and ``base`` removed);
-    ``context`` is the source item's stems, which pick the WordNet senses."""
+def paraphrases(base: str, rewording: Rewording, rng: random.Random) -> list[str]:
+    """Rewordings of ``base`` at increasing swap rates (duplicates and ``base`` removed)."""
     out: list[str] = []
     for rate in RATES:
-        q = retype(rewording.reword(base, rate, rng, context), rewording.wordnet, rng)
+        q = retype(rewording.reword(base, rate, rng), rewording.wordnet, rng)
         if q != base and q not in out:
             out.append(q)
     return out

@@ -1,9 +1,9 @@
 """A small reader for the WordNet 3.0 database files (format: wndb(5), morphy(7WN)).
 
-Reads ``index.*``, ``data.*``, ``*.exc`` and ``cntlist.rev`` straight from a folder such as Debian's
-``/usr/share/wordnet`` (package ``wordnet-base``), so no extra Python package or corpus
-download is needed. Only what paraphrasing uses is kept: senses in frequency order, their
-lemmas, glosses and hypernyms.
+Reads ``index.*``, ``data.*``, ``*.exc`` and ``cntlist.rev`` straight from a folder such
+as Debian's ``/usr/share/wordnet`` (package ``wordnet-base``), so no extra Python package
+or corpus download is needed. Only what paraphrasing uses is kept: senses in frequency
+order with their tagged counts, lemmas and hypernyms.
 """
 
 from __future__ import annotations
@@ -31,7 +31,6 @@ DETACH = {
 class Synset:
     lemmas: tuple[str, ...]
     hypernyms: tuple[tuple[str, int], ...]  # (pos, offset)
-    gloss: str = ""  # definition and example sentences
 
 
 class WordNet:
@@ -118,11 +117,6 @@ class WordNet:
         got = self._counts.get((lemma.replace(" ", "_"), pos), {})
         return tuple(got.get(k, 0) for k in range(1, len(self.senses(lemma, pos)) + 1))
 
-    def sense_offsets(self, word: str, pos: str) -> tuple[int, ...]:
-        """Synset offsets of ``word``'s first base form, most frequent sense first."""
-        bases = self.base_forms(word, pos)
-        return self.senses(bases[0], pos) if bases else ()
-
     def synonyms(self, word: str, pos: str, senses: int = 1) -> list[str]:
         """Other lemmas in the ``senses`` most frequent synsets of ``word``."""
         return self._related(word, pos, senses, hyper=False)
@@ -174,8 +168,7 @@ def _parse_index(line: str) -> tuple[int, tuple[int, ...]]:
 
 def _parse_data(line: str) -> Synset:
     # offset lex_filenum ss_type w_cnt(hex) [word lex_id]... p_cnt [sym offset pos src/tgt]...
-    head, _, gloss = line.partition(" | ")
-    f = head.split()
+    f = line.split(" | ", 1)[0].split()
     n_words = int(f[3], 16)
     lemmas = tuple(_lemma(f[4 + 2 * k]) for k in range(n_words))
     at = 4 + 2 * n_words
@@ -184,7 +177,7 @@ def _parse_data(line: str) -> Synset:
         sym, off, p = f[at + 1 + 4 * k: at + 4 + 4 * k]
         if sym in ("@", "@i"):
             hyper.append(("a" if p == "s" else p, int(off)))
-    return Synset(lemmas, tuple(hyper), gloss.strip())
+    return Synset(lemmas, tuple(hyper))
 
 
 def _lemma(raw: str) -> str:
