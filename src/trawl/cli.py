@@ -404,7 +404,7 @@ def _rank(r: float) -> str:
                    "it to be judged at --related-grade [minilm and bm25].")
 @click.option("--neighbour-depth", type=click.IntRange(1), default=None,
               help="How many nearest items each --neighbours encoder offers [10, fewer in "
-                   "catalogues under 400 items].")
+                   "catalogues under 380 items].")
 @click.option("--no-neighbours", is_flag=True,
               help="Judge only the source and its 'related' items.")
 @click.option("--cache", "cache_dir", type=click.Path(file_okay=False), default=None,

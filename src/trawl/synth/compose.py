@@ -228,7 +228,7 @@ def synthesise(catalogue: Catalogue, *, per_item: int = 1, sample: int | None = 
     skipped (listed in ``skipped_styles``). ``check_with`` names encoder specs whose
     fused top ``check_depth`` must contain a query's source for it to be kept.
     Items every encoder in ``neighbours`` places among a source's ``neighbour_depth``
-    nearest (default: 10, fewer in catalogues under 400 items) are judged at
+    nearest (default: 10, fewer in catalogues under 380 items) are judged at
     ``related_grade`` too (see neighbours.py; ``()`` turns it off).
     ``cache_dir`` is the embedding cache those encoders use.
     """
