@@ -10,6 +10,7 @@ spread, since one seed can flatter.
     python bench/silver_agreement.py                       # Cranfield + the demo gold set
     python bench/silver_agreement.py --collection CAT.jsonl QUERIES.tsv QRELS
     python bench/silver_agreement.py --calibrate           # profile from the human queries' text
+    python bench/silver_agreement.py --check-with minilm --check-with bm25   # round-trip filter
 
 Slow (minutes: every item is embedded by three encoders once; later runs reuse the
 embedding cache in --cache). Silver figures are estimates by construction; this script is
@@ -81,7 +82,8 @@ def study(name: str, paths, seeds, args, static_dir: Path, cache: Path) -> list[
         silver_set = synthesise(cat, per_item=args.per_item, sample=args.sample,
                                 styles=args.styles, seed=seed, quiet=True,
                                 calibrate_with=human_q if args.calibrate else None,
-                                calibration_source=str(q_path), cache_dir=cache)
+                                calibration_source=str(q_path), cache_dir=cache,
+                                check_with=tuple(args.check_with))
         silver = system_scores(cat, dict(silver_set.queries), silver_set.qrels, static_dir,
                                cache)
         s = [silver[x] for x in SYSTEMS]
@@ -110,6 +112,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--calibrate", action="store_true",
                     help="Calibrate the overlap profile on the human queries' text (not "
                          "their judgments), as a user with a search-log sample would.")
+    ap.add_argument("--check-with", action="append", default=[], metavar="SPEC",
+                    help="Round-trip check encoder (repeat to fuse), as `trawl synth`.")
     ap.add_argument("--cache", type=Path, default=Path("/tmp/trawl-silver-bench"),
                     help="Embedding cache, indexes and the distilled static model.")
     args = ap.parse_args(argv)
