@@ -32,9 +32,11 @@ def test_reader_on_a_hand_made_database(tmp_path):
     assert wn is not None
     assert wn.base_forms("buses", "n") == ["bus"]  # morphy rule -ses -> -s
     assert wn.base_forms("busses", "n") == ["bus"]  # exception list
-    assert wn.synonyms("coaches", "n") == ["bus"]
-    assert wn.hypernyms("bus", "n") == ["vehicle"]
-    assert wn.synonyms("tram", "n") == [] and wn.synonyms("bus", "v") == []
+    assert wn.base_forms("coaches", "n") == ["coach"]
+    bus = wn.synset("n", wn.senses("coach", "n")[0])
+    assert bus.lemmas == ("bus", "coach")
+    assert [wn.synset(p, o).lemmas for p, o in bus.hypernyms] == [("vehicle",)]
+    assert wn.senses("tram", "n") == () and wn.senses("bus", "v") == ()
 
 
 def test_missing_wordnet_is_none(tmp_path):
@@ -50,11 +52,16 @@ def test_real_wordnet_first_senses():
     wn = load_wordnet()
     # WordNet 3.0 data.noun, synset 02958343 ("car, auto, automobile, machine, motorcar"),
     # the first sense of "car" in index.noun; its hypernym is 03791235 "motor vehicle".
-    assert wn.synonyms("cars", "n") == ["auto", "automobile", "machine", "motorcar"]
-    assert wn.hypernyms("car", "n") == ["motor vehicle", "automotive vehicle"]
+    assert wn.base_forms("cars", "n") == ["car"] and wn.senses("car", "n")[0] == 2958343
+    car = wn.synset("n", 2958343)
+    assert car.lemmas == ("car", "auto", "automobile", "machine", "motorcar")
+    assert [wn.synset(p, o).lemmas for p, o in car.hypernyms] == \
+        [("motor vehicle", "automotive vehicle")]
     # noun.exc lists "geese goose"; verb "cancel" first sense: call off, scratch, scrub
     assert wn.base_forms("geese", "n") == ["goose"]
-    assert wn.synonyms("cancelled", "v")[:3] == ["call off", "scratch", "scrub"]
+    assert wn.base_forms("cancelled", "v")[0] == "cancel"
+    assert wn.synset("v", wn.senses("cancel", "v")[0]).lemmas[:4] == \
+        ("cancel", "call off", "scratch", "scrub")
 
 
 @pytest.mark.skipif(REAL is None, reason="WordNet 3.0 not installed (Debian wordnet-base)")

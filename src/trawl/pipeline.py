@@ -684,6 +684,7 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
                         "gold set", silver=False,
                         how="written and judged by hand for the demo catalogue")]
     return evaluate(cat, sets, specs, out, fuse=fuse, resamples=resamples, seed=seed,
-                    cache_dir=cache, agreement=("silver", "gold") if len(specs) + len(fuse) >= 2 else None,
+                    cache_dir=cache,
+                    agreement=("silver", "gold") if len(specs) + len(fuse) >= 2 else None,
                     title="Quillfern Regional Transit: rider app search", retime=retime,
                     quiet=quiet, notify=notify)

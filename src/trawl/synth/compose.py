@@ -322,15 +322,15 @@ def synthesise(catalogue: Catalogue, *, per_item: int = 1, sample: int | None = 
         merged = [m for m, ok in zip(merged, keep) if ok]
     width = max(4, len(str(len(merged))))
     final = {f"{qid_prefix}{k:0{width}d}": m for k, m in enumerate(merged, start=1)}
-    near: dict[str, tuple[str, ...]] = {}
+    without = silver_qrels(final, catalogue, source_grade, related_grade)
+    qrels, near = without, {}
     if neighbours and related_grade > 0:
         near = consensus_neighbours(catalogue, {s for m in final.values() for s in m.sources},
                                     neighbours, neighbour_depth, cache_dir, quiet)
-    qrels = silver_qrels(final, catalogue, source_grade, related_grade, near)
+        qrels = silver_qrels(final, catalogue, source_grade, related_grade, near)
     provenance = tuple(_provenance(qid, m, catalogue, seed, target_of[id(m.drafts[0])])
                        for qid, m in final.items())
     summary = _summary(final, catalogue, dropped, profile, len(items), per_item, mix)
-    without = silver_qrels(final, catalogue, source_grade, related_grade)
     summary["neighbours"] = {"encoders": list(neighbours) if near else [],
                              "depth": neighbour_depth,
                              "judgments_added": sum(len(qrels[q]) - len(without[q])

@@ -9,6 +9,7 @@ encoders (``--check-with minilm --check-with bm25``) and look deep (top 20).
 from __future__ import annotations
 
 from collections.abc import Sequence
+from pathlib import Path
 
 from ..catalogue import Catalogue
 from ..errors import UsageError
@@ -16,7 +17,8 @@ from .grading import Merged
 
 
 def round_trip_keep(catalogue: Catalogue, merged: Sequence[Merged], specs: Sequence[str],
-                    depth: int, quiet: bool = True, cache_dir=None) -> list[bool]:
+                    depth: int, quiet: bool = True, cache_dir: str | Path | None = None
+                    ) -> list[bool]:
     """For each merged query, whether a source is in the (fused) checkers' top ``depth``."""
     from ..index import retrieve
     from ..retrievers.fusion import reciprocal_rank_fusion

@@ -136,7 +136,7 @@ def _dominant(wn: WordNet, lemma: str, pos: str) -> int | None:
 
 
 def _numeral(lemma: str) -> bool:
-    return lemma.isdigit() or lemma.replace(".", "").isdigit()
+    return lemma.replace(".", "").isdigit()
 
 
 DROP_ONE_AT, DROP_TWO_AT = 3, 4  # item words in a query before its rarest one or two go

@@ -117,29 +117,6 @@ class WordNet:
         got = self._counts.get((lemma.replace(" ", "_"), pos), {})
         return tuple(got.get(k, 0) for k in range(1, len(self.senses(lemma, pos)) + 1))
 
-    def synonyms(self, word: str, pos: str, senses: int = 1) -> list[str]:
-        """Other lemmas in the ``senses`` most frequent synsets of ``word``."""
-        return self._related(word, pos, senses, hyper=False)
-
-    def hypernyms(self, word: str, pos: str, senses: int = 1) -> list[str]:
-        """Lemmas of the direct hypernyms of the ``senses`` most frequent synsets."""
-        return self._related(word, pos, senses, hyper=True)
-
-    def _related(self, word: str, pos: str, senses: int, hyper: bool) -> list[str]:
-        out: list[str] = []
-        for base in self.base_forms(word, pos)[:1]:
-            for off in self.senses(base, pos)[:senses]:
-                syn = self.synset(pos, off)
-                if syn is None:
-                    continue
-                targets = ([self.synset(pos, o) for p, o in syn.hypernyms if p == pos]
-                           if hyper else [syn])
-                for t in targets:
-                    for lemma in t.lemmas if t else ():
-                        if lemma != base and lemma not in out:
-                            out.append(lemma)
-        return out
-
 
 def find_wordnet(folder: str | Path | None = None) -> Path | None:
     """The first folder holding WordNet's ``index.noun`` and ``data.noun``, or None."""
