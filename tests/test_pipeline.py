@@ -307,13 +307,14 @@ def test_search_key_follows_the_inputs_not_the_build_time():
     manifest = {"encoder": {"spec": "minilm", "fingerprint": "ab"}, "catalogue": {"items": 3},
                 "build": {"created_at": "then", "seconds": 1.0}}
     queries = {"q1": "renew my books", "q2": "lost card"}
-    key = search_key(manifest, queries, 10)
+    key = search_key(manifest, queries, 10, 2)
     rebuilt = dict(manifest, build={"created_at": "now", "seconds": 2.0})
-    assert search_key(rebuilt, queries, 10) == key
+    assert search_key(rebuilt, queries, 10, 2) == key
     other_weights = dict(manifest, encoder={"spec": "minilm", "fingerprint": "cd"})
-    changed = [search_key(other_weights, queries, 10),
-               search_key(manifest, {"q1": "renew my book", "q2": "lost card"}, 10),
-               search_key(manifest, {"q2": "lost card", "q1": "renew my books"}, 10),
-               search_key(manifest, queries, 5)]
-    assert len({key, *changed}) == 5
+    changed = [search_key(other_weights, queries, 10, 2),
+               search_key(manifest, {"q1": "renew my book", "q2": "lost card"}, 10, 2),
+               search_key(manifest, {"q2": "lost card", "q1": "renew my books"}, 10, 2),
+               search_key(manifest, queries, 5, 2),
+               search_key(manifest, queries, 10, 1)]
+    assert len({key, *changed}) == 6
     assert fused_key([key, "x"], 10) != fused_key(["x", key], 10)

@@ -4,6 +4,10 @@ Per-query latency is encode + search of one query at a time (a search box sends 
 query per request), after a few warm-up queries that are not counted (first calls pay
 for lazy model loading, allocator growth and cold caches). Batch throughput is the
 whole query set through ``Index.search``. The run returned is the batch run.
+
+Timing can run under a chosen compute thread count (``use_threads``): on a busy
+machine, compute threads that wait for a core inflate single-query latency, so time
+with the count the deployment will have.
 """
 
 from __future__ import annotations
@@ -11,7 +15,8 @@ from __future__ import annotations
 import os
 import platform
 import time
-from collections.abc import Mapping
+from collections.abc import Iterator, Mapping
+from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
@@ -61,24 +66,27 @@ class LatencyReport:
 
 def measure_search(index: Index, queries: Mapping[str, str], k: int = 100,
                    warmup: int = DEFAULT_WARMUP, quiet: bool = True,
-                   name: str | None = None) -> tuple[Run, LatencyReport]:
-    """Batch run plus latency figures for ``queries`` against ``index``."""
+                   name: str | None = None, threads: int | None = None
+                   ) -> tuple[Run, LatencyReport]:
+    """Batch run plus latency figures for ``queries`` against ``index``, timed under
+    ``threads`` compute threads (None: whatever is in force)."""
     if warmup < 0:
         raise UsageError(f"warm-up count {warmup} must be >= 0")
     index.check_k(k)
     texts = list(queries.values())
     if not texts:
         raise UsageError("no queries to time")
-    for i in range(warmup):
-        index.search_one(texts[i % len(texts)], k)
-    per_query = []
-    for text in texts:
-        start = time.perf_counter_ns()
-        index.search_one(text, k)
-        per_query.append((time.perf_counter_ns() - start) / 1e6)
-    start = time.perf_counter()
-    run = index.search(queries, k, quiet=quiet, name=name)
-    batch_seconds = time.perf_counter() - start
+    with use_threads(threads) as in_force:
+        for i in range(warmup):
+            index.search_one(texts[i % len(texts)], k)
+        per_query = []
+        for text in texts:
+            start = time.perf_counter_ns()
+            index.search_one(text, k)
+            per_query.append((time.perf_counter_ns() - start) / 1e6)
+        start = time.perf_counter()
+        run = index.search(queries, k, quiet=quiet, name=name)
+        batch_seconds = time.perf_counter() - start
     ms = np.asarray(per_query)
     size = index.bytes
     report = LatencyReport(
@@ -89,7 +97,7 @@ def measure_search(index: Index, queries: Mapping[str, str], k: int = 100,
         batch_queries=len(texts), batch_seconds=_round(batch_seconds),
         batch_queries_per_s=_round(len(texts) / batch_seconds) if batch_seconds > 0 else 0.0,
         index_bytes=size, items=len(index), bytes_per_item=_round(size / len(index)),
-        cpu=cpu_model(), threads=compute_threads())
+        cpu=cpu_model(), threads=in_force)
     return run, report
 
 
@@ -116,3 +124,32 @@ def compute_threads() -> int:
         return torch.get_num_threads()
     except ImportError:
         return len(os.sched_getaffinity(0))
+
+
+def check_threads(threads: int | None) -> None:
+    """Refuse a thread count below 1 before any work starts."""
+    if threads is not None and threads < 1:
+        raise UsageError(f"threads={threads} must be >= 1; give --threads 1 or more, or "
+                         "leave it out for the libraries' defaults")
+
+
+@contextmanager
+def use_threads(threads: int | None) -> Iterator[int]:
+    """Run the block with ``threads`` compute threads in torch (encoding) and faiss
+    (search), restoring both counts afterwards; yields the count in force. None
+    changes nothing, so the libraries' defaults apply."""
+    check_threads(threads)
+    if threads is None:
+        yield compute_threads()
+        return
+    import faiss
+    import torch
+
+    before = torch.get_num_threads(), faiss.omp_get_max_threads()
+    torch.set_num_threads(threads)
+    faiss.omp_set_num_threads(threads)
+    try:
+        yield torch.get_num_threads()
+    finally:
+        torch.set_num_threads(before[0])
+        faiss.omp_set_num_threads(before[1])

@@ -58,6 +58,14 @@ def seed_option(f):
                         help="Seed for every random choice (same seed, same output).")(f)
 
 
+def threads_option(f):
+    return click.option("--threads", type=int, default=None, metavar="N",
+                        help="Compute threads (torch and faiss) while timing; give what a "
+                             "deployed replica will have, e.g. 1 per worker on a shared "
+                             "machine (default: the libraries' own, one per core). The "
+                             "latency file records the count used.")(f)
+
+
 def template_option(f):
     return click.option("--template", default=None, metavar="PATTERN",
                         help="Text each item is embedded with, as a format pattern over item "
@@ -616,29 +624,34 @@ def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int 
               help="Run name for the tag column (default: output file name without extension).")
 @click.option("--warmup", type=int, default=5, show_default=True,
               help="Queries run before timing starts (not counted).")
+@threads_option
 @quiet_option
 @json_option
 def search(index: str, queries: str, output: str, k: int, catalogue: str | None,
-           name: str | None, warmup: int, quiet: bool, as_json: bool) -> None:
+           name: str | None, warmup: int, threads: int | None, quiet: bool,
+           as_json: bool) -> None:
     """Search an index with every query; write a TREC run and its latency figures.
 
     Latency is encode + search of one query at a time, as a search box sends them
-    (p50/p95/p99 after warm-up); throughput is the whole set in one batch.
+    (p50/p95/p99 after warm-up); throughput is the whole set in one batch. Latency
+    depends on the compute threads: time with the count you will deploy (--threads).
 
     \b
     Example:
       trawl search idx/minilm qrels/quillfern-gold.queries.tsv -o runs/minilm.run
+      trawl search idx/minilm queries.tsv -o runs/minilm-1t.run --threads 1
       trawl search idx/bm25 queries.tsv -o runs/bm25.run -k 20 --json
     """
     from pathlib import Path
 
-    from .bench import measure_search
+    from .bench import check_threads, measure_search
     from .catalogue import load_catalogue
     from .files import write_text_atomic
     from .index import open_index, read_manifest
     from .queries import read_queries
     from .runs import write_run
 
+    check_threads(threads)
     manifest = read_manifest(index)
     recorded = manifest["catalogue"]["path"]
     cat_path = catalogue or (recorded if Path(recorded).is_file() else None)
@@ -649,7 +662,7 @@ def search(index: str, queries: str, output: str, k: int, catalogue: str | None,
     idx = open_index(index, cat)
     run_name = name or "_".join(Path(output).name.split(".")[0].split()) or "run"
     run, report = measure_search(idx, read_queries(queries), k, warmup=warmup, quiet=quiet,
-                                 name=run_name)
+                                 name=run_name, threads=threads)
     write_run(output, run)
     sidecar = f"{output}.latency.json"
     write_text_atomic(sidecar, json.dumps(report.as_dict(), indent=2) + "\n")
@@ -662,7 +675,7 @@ def search(index: str, queries: str, output: str, k: int, catalogue: str | None,
                       "bytes/item"]))
     click.echo(f"wrote {output} ({len(run)} queries, top {k}) and {sidecar} "
                f"({report.queries_timed} queries timed one at a time, {report.warmup} warm-up "
-               f"excluded; {report.threads} threads on {report.cpu})")
+               f"excluded; {report.threads} thread(s) on {report.cpu})")
 
 
 @main.command()
@@ -1003,29 +1016,33 @@ def _finish(result, as_json: bool) -> None:
               help="Replace e-mails, phone numbers, long digit runs and postcodes in the "
                    "query text the report and tables show (searches use the original).")
 @click.option("--retime", is_flag=True,
-              help="Search and time every system again, even those whose index, queries "
-                   "and depth are unchanged since the last run into OUTPUT.")
+              help="Search and time every system again, even those whose index, queries, "
+                   "depth and threads are unchanged since the last run into OUTPUT.")
+@threads_option
 @quiet_option
 @json_option
 def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, ...],
                  output: str, fuse: tuple[str, ...], baseline: str | None, k: int,
                  metrics: tuple[str, ...], resamples: int, seed: int, judged_by: str,
                  ann: str, cache_dir: str | None, template: str | None, title: str | None,
-                 scrub: bool, retime: bool, quiet: bool, as_json: bool) -> None:
+                 scrub: bool, retime: bool, threads: int | None, quiet: bool,
+                 as_json: bool) -> None:
     """Index, search, score, compare and analyse misses for every encoder in one go,
     and write report.html.
 
     Indexes are kept in OUTPUT/indexes and reused while the catalogue and encoder are
-    unchanged; vectors come from the embedding cache; a system whose index, queries and
-    depth are unchanged keeps its run and latency figures; so reruns finish fast. Prints
-    quality against latency with significance marks and the headline of the miss table.
-    Under silver judgments every figure is an estimate, and the output says so.
+    unchanged; vectors come from the embedding cache; a system whose index, queries,
+    depth and threads are unchanged keeps its run and latency figures; so reruns finish
+    fast. Prints quality against latency with significance marks and the headline of the
+    miss table. Under silver judgments every figure is an estimate, and the output says
+    so. Latency is timed with --threads compute threads when given (the report shows the
+    count); time with what a deployed replica will have.
 
     \b
     Example:
       trawl synth corpora/quillfern.jsonl -o silver/qf
       trawl eval corpora/quillfern.jsonl silver/qf.queries.tsv silver/qf.qrels \\
-        -e minilm -e bm25 --fuse minilm+bm25 -o eval-out
+        -e minilm -e bm25 --fuse minilm+bm25 -o eval-out --threads 1
     """
     from pathlib import Path
 
@@ -1037,7 +1054,7 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
     result = evaluate(catalogue, [js], encoders, output, fuse=fuse, baseline=baseline, k=k,
                       metrics=metrics or DEFAULT_METRICS, resamples=resamples, seed=seed,
                       ann=ann, cache_dir=cache_dir, template=template, title=title,
-                      scrub_queries=scrub, retime=retime, quiet=quiet,
+                      scrub_queries=scrub, retime=retime, threads=threads, quiet=quiet,
                       notify=_step(quiet or as_json))
     _finish(result, as_json)
     if scrub and not as_json:
@@ -1058,12 +1075,14 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
               help="Bootstrap and randomisation resamples.")
 @seed_option
 @click.option("--retime", is_flag=True,
-              help="Search and time every system again, even those whose index, queries "
-                   "and depth are unchanged since the last run into OUTPUT.")
+              help="Search and time every system again, even those whose index, queries, "
+                   "depth and threads are unchanged since the last run into OUTPUT.")
+@threads_option
 @quiet_option
 @json_option
 def demo(output: str, encoders: tuple[str, ...], fuse: tuple[str, ...], sample: int | None,
-         resamples: int, seed: int, retime: bool, quiet: bool, as_json: bool) -> None:
+         resamples: int, seed: int, retime: bool, threads: int | None, quiet: bool,
+         as_json: bool) -> None:
     """The whole job on the bundled transit catalogue: check it, distil the static
     encoder, synthesise silver queries, evaluate every encoder and the hybrid against the
     silver set and the hand-judged gold set, measure how alike the two sets rank the
@@ -1081,7 +1100,7 @@ def demo(output: str, encoders: tuple[str, ...], fuse: tuple[str, ...], sample: 
 
     result = run_demo(output, encoders=encoders or DEMO_ENCODERS, fuse=fuse or None,
                       sample=sample, resamples=resamples, seed=seed, retime=retime,
-                      quiet=quiet, notify=_step(quiet or as_json))
+                      threads=threads, quiet=quiet, notify=_step(quiet or as_json))
     _finish(result, as_json)
 
 if __name__ == "__main__":  # pragma: no cover

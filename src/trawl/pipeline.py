@@ -25,6 +25,7 @@ from typing import Any
 import numpy as np
 
 from . import __version__
+from .bench import check_threads
 from .catalogue import Catalogue, check_catalogue, load_catalogue
 from .errors import (EncoderMismatchError, InputError, StaleIndexError, TrawlError,
                      UsageError)
@@ -259,12 +260,13 @@ def _digest(obj: Any) -> str:
                           ).hexdigest()[:16]
 
 
-def search_key(manifest: Mapping[str, Any], queries: Mapping[str, str], depth: int) -> str:
+def search_key(manifest: Mapping[str, Any], queries: Mapping[str, str], depth: int,
+               threads: int) -> str:
     """What a timed search depends on: the index (not when it was built), the queries in
-    order, the depth and the timing procedure."""
+    order, the depth, the compute threads in force and the timing procedure."""
     index = {k: v for k, v in manifest.items() if k != "build"}
     return _digest({"index": index, "queries": list(queries.items()), "depth": depth,
-                    "warmup": LATENCY_WARMUP, "trawl": __version__})
+                    "threads": threads, "warmup": LATENCY_WARMUP, "trawl": __version__})
 
 
 def fused_key(part_keys: Sequence[str], depth: int) -> str:
@@ -311,41 +313,47 @@ class Searched:
 
 def search_set(systems: Sequence[System], indexes: Mapping[str, Any],
                queries: Mapping[str, str], folder: Path, depth: int, retime: bool,
-               quiet: bool, say: Notify, label: str) -> Searched:
-    """Search (timed) with every system, writing ``folder/NAME.run`` and its latency
-    sidecar; an earlier run for exactly the same inputs is kept unless ``retime``."""
-    from .bench import measure_search
+               quiet: bool, say: Notify, label: str, threads: int | None = None) -> Searched:
+    """Search (timed under ``threads`` compute threads; None: the libraries' defaults)
+    with every system, writing ``folder/NAME.run`` and its latency sidecar; an earlier
+    run for exactly the same inputs, thread count included, is kept unless ``retime``."""
+    from .bench import measure_search, use_threads
 
     runs: dict[str, Run] = {}
     latency: dict[str, dict[str, Any]] = {}
     keys: dict[str, str] = {}
     reused: list[str] = []
-    for s in systems:
-        run_path = folder / f"{s.name}.run"
-        keys[s.name] = (search_key(indexes[s.name].manifest, queries, depth)
-                        if s.spec is not None else
-                        fused_key([keys[p] for p in s.parts], depth))
-        earlier = None if retime else previous_search(run_path, s.name, keys[s.name], queries)
-        if earlier is not None:
-            say(f"search {label}: {s.name}: reusing {run_path} (same index, queries, depth)")
-            runs[s.name], latency[s.name] = earlier
-            reused.append(s.name)
-            continue
-        say(f"search {label}: {s.name} ({len(queries)} queries, timed one at a time)")
-        if s.spec is not None:
-            run, report = measure_search(indexes[s.name], queries, depth,
-                                         warmup=LATENCY_WARMUP, quiet=quiet, name=s.name)
-            lat = report.as_dict()
-        else:
-            run = reciprocal_rank_fusion([runs[p] for p in s.parts], RRF_K, depth=depth,
-                                         name=s.name)
-            lat = measure_fused([indexes[p] for p in s.parts], s.parts, queries, depth,
-                                s.name)
-            lat["batch_queries_per_s"] = _fused_throughput(latency, s.parts)
-        lat["inputs"] = keys[s.name]
-        runs[s.name], latency[s.name] = run, lat
-        write_run(run_path, run)
-        _write_json(Path(f"{run_path}.latency.json"), lat)
+    with use_threads(threads) as in_force:
+        for s in systems:
+            run_path = folder / f"{s.name}.run"
+            keys[s.name] = (search_key(indexes[s.name].manifest, queries, depth, in_force)
+                            if s.spec is not None else
+                            fused_key([keys[p] for p in s.parts], depth))
+            earlier = None if retime else previous_search(run_path, s.name, keys[s.name],
+                                                          queries)
+            if earlier is not None:
+                say(f"search {label}: {s.name}: reusing {run_path} (same index, queries, "
+                    "depth, threads)")
+                runs[s.name], latency[s.name] = earlier
+                reused.append(s.name)
+                continue
+            say(f"search {label}: {s.name} ({len(queries)} queries, timed one at a time, "
+                f"{in_force} thread(s))")
+            if s.spec is not None:
+                run, report = measure_search(indexes[s.name], queries, depth,
+                                             warmup=LATENCY_WARMUP, quiet=quiet, name=s.name)
+                lat = report.as_dict()
+            else:
+                run = reciprocal_rank_fusion([runs[p] for p in s.parts], RRF_K, depth=depth,
+                                             name=s.name)
+                lat = measure_fused([indexes[p] for p in s.parts], s.parts, queries, depth,
+                                    s.name)
+                lat["batch_queries_per_s"] = _fused_throughput(latency, s.parts)
+                lat["threads"] = in_force
+            lat["inputs"] = keys[s.name]
+            runs[s.name], latency[s.name] = run, lat
+            write_run(run_path, run)
+            _write_json(Path(f"{run_path}.latency.json"), lat)
     return Searched(runs, latency, tuple(reused))
 
 
@@ -356,17 +364,19 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
              seed: int = 0, alpha: float = 0.05, ann: str = "exact",
              cache_dir: str | Path | None = None, template: str | None = None,
              agreement: tuple[str, str] | None = None, title: str | None = None,
-             scrub_queries: bool = False, retime: bool = False, quiet: bool = False,
-             notify: Notify | None = None) -> EvalResult:
+             scrub_queries: bool = False, retime: bool = False, threads: int | None = None,
+             quiet: bool = False, notify: Notify | None = None) -> EvalResult:
     """Index, search (timed), fuse, score, compare, tabulate misses and write the report.
 
     ``encoders`` are specs (``NAME=SPEC`` to name one); ``fuse`` entries join system
     names with ``+``. The baseline defaults to the first system. ``agreement`` names two
     judgment sets whose system rankings are compared. ``scrub_queries`` replaces personal
     data (``privacy.scrub``) in the query text the report and tables show; searches
-    still use the original text. A system whose index, queries and depth are unchanged
-    since an earlier evaluation into the same folder keeps that run and its latency
-    figures (the report says so); ``retime`` searches and times everything again.
+    still use the original text. ``threads`` is the compute thread count searches are
+    timed with (None: the libraries' defaults); time with what the deployment will have.
+    A system whose index, queries, depth and thread count are unchanged since an earlier
+    evaluation into the same folder keeps that run and its latency figures (the report
+    says so); ``retime`` searches and times everything again.
     """
     from .agreement import agree
     from .compare import compare_scores
@@ -386,6 +396,7 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         raise UsageError(f"k={k} must be >= 1")
     if resamples < 1:
         raise UsageError(f"resamples={resamples} must be >= 1")
+    check_threads(threads)
     if not sets:
         raise UsageError("no judgment sets to evaluate")
     set_names = [js.name for js in sets]
@@ -422,7 +433,8 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         js = ld.spec
         folder = out / js.name
         found = searched[js.name] = search_set(systems, indexes, ld.queries, folder / "runs",
-                                               depth, retime, quiet, say, js.name)
+                                               depth, retime, quiet, say, js.name,
+                                               threads)
         runs, latency = found.runs, found.latency
         ordered = [runs[baseline]] + [runs[n] for n in names if n != baseline]
         say(f"score {js.name}: {len(ld.qrels)} queries, {resamples} bootstrap resamples")
@@ -569,8 +581,8 @@ def _notes(systems: Sequence[System], k: int, depth: int, ann: str, cat: Catalog
     reused = list(dict.fromkeys(n for found in searched for n in found.reused))
     if reused:
         notes["reused"] = (f"runs and latency of {', '.join(reused)} come from an earlier "
-                           "evaluation with the same index, queries and depth (--retime "
-                           "measures again)")
+                           "evaluation with the same index, queries, depth and threads "
+                           "(--retime measures again)")
     notes["text template"] = repr(cat.template.pattern)
     return notes
 
@@ -637,7 +649,8 @@ def demo_data_root() -> Path:
 def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENCODERS,
          fuse: Sequence[str] | None = None, sample: int | None = None,
          resamples: int = DEFAULT_RESAMPLES, seed: int = 0,
-         cache_dir: str | Path | None = None, retime: bool = False, quiet: bool = False,
+         cache_dir: str | Path | None = None, retime: bool = False,
+         threads: int | None = None, quiet: bool = False,
          notify: Notify | None = None) -> EvalResult:
     """The whole job on the bundled transit catalogue, from an empty folder.
 
@@ -646,6 +659,7 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
     set, and measures how alike the two sets rank the systems. ``static`` among the
     encoders means the distilled model; ``sample`` limits the items queries are
     synthesised from (for quick runs). The embedding cache defaults to ``OUT/cache``.
+    ``threads`` is passed to ``evaluate``.
     """
     from .retrievers.distill import distill_static
     from .synth import synthesise, write_silver
@@ -659,6 +673,7 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
     specs = [f"{STATIC_ALIAS}=static:{static_dir}" if e == STATIC_ALIAS else e
              for e in encoders]
     plan_systems(specs, fuse, check_paths=False)  # reject bad options before any work
+    check_threads(threads)
     cat = load_catalogue(root / DEMO_CATALOGUE)
     check = check_catalogue(cat, unit="words")
     say(f"check {DEMO_CATALOGUE}: {check.items} items, "
@@ -687,4 +702,4 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
                     cache_dir=cache,
                     agreement=("silver", "gold") if len(specs) + len(fuse) >= 2 else None,
                     title="Quillfern Regional Transit: rider app search", retime=retime,
-                    quiet=quiet, notify=notify)
+                    threads=threads, quiet=quiet, notify=notify)
