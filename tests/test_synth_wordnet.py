@@ -118,6 +118,10 @@ def test_drop_rarest_leaves_out_the_items_rarest_words():
         "effect rigid spin"
     assert drop_rarest("gyroscopic rigid effect", stems, idf) == "rigid effect"
     assert drop_rarest("rigid effect spin", stems, idf) == "rigid effect spin"
+    # the last word is the phrase's head and stays, however rare
+    idf = {"structures": 9.0, "noise": 5.0, "jet": 4.0, "effect": 1.0}.get
+    stems = {"structure", "noise", "jet", "effect"}  # S-stems
+    assert drop_rarest("effect jet noise structures", stems, idf) == "effect structures"
 
 
 @pytest.mark.skipif(REAL is None, reason="WordNet 3.0 not installed (Debian wordnet-base)")
@@ -137,3 +141,24 @@ def test_retype_uses_base_verbs_and_redraws_the_head_nouns_number():
     # chances 0.7 and 0.5 per query; binomial sd over 400 draws ~0.025
     assert base == pytest.approx(0.7, abs=0.08) and singular == pytest.approx(0.5, abs=0.08)
     assert retype("replacing cards", None, rng) == "replacing cards"
+    # names keep their form, and no number is drawn that ordinary text seldom uses
+    # (wordfreq: "marches" and "datum" are rarer than once per million words)
+    assert {retype("night bus march", wn, rng, names={"march"}) for _ in range(50)} == \
+        {"night bus march"}
+    assert "night bus marches" in {retype("night bus march", wn, rng) for _ in range(50)}
+    assert {retype("export data", wn, rng) for _ in range(50)} == {"export data"}
+
+
+@pytest.mark.skipif(REAL is None, reason="WordNet 3.0 not installed (Debian wordnet-base)")
+def test_words_whose_base_forms_disagree_are_not_swapped():
+    from trawl.synth.paraphrase import Rewording
+
+    wn = load_wordnet()
+    rw = Rewording(wn)
+    # index.noun lists "receipts" (revenue) as a lemma of its own besides "receipt"
+    assert wn.base_forms("receipts", "n") == ["receipts", "receipt"]
+    assert rw.sense("receipts", "n") is None and rw.alternatives("receipts") == []
+    assert "revenue" not in rw.alternatives("receipts")
+    # names are never swapped
+    assert Rewording(wn, names=frozenset({"cars"})).reword("cars", 1.0, random.Random(0)) \
+        == "cars"

@@ -281,7 +281,7 @@ def synthesise(catalogue: Catalogue, *, per_item: int = 1, sample: int | None = 
     if max_overlap is not None:
         profile = replace(profile, ceiling=max_overlap)
     tools = Tools(corpus, Rewording(wordnet, lexicon, phrases=corpus.phrases,
-                                   known=corpus.known), typo_rate, llm)
+                                   known=corpus.known, names=corpus.names), typo_rate, llm)
     items = sample_items(catalogue, sample, seed)
     names, weights = list(mix), [mix[k] for k in mix]
 

@@ -7,19 +7,23 @@ catalogue: a word that occurs in every item says nothing about any one of them.
 from __future__ import annotations
 
 import math
+import re
 from collections import Counter
 from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Mapping
 
 from ..catalogue import Catalogue, Item
-from .text import content_words, is_content, stem, words
+from .text import TOKEN, content_words, is_content, stem, words
 from .wordnet import WordNet
 
 
 ACTION_WEIGHT = 0.3  # common practice, no source: queries name things more than actions
 PHRASE_MIN_ITEMS = 3  # a word pair in 3+ items is a term of the trade; common practice, no source
 TITLE_BOOST = 3.0  # a title word counts like three body mentions; common practice, no source
+NAME_SHARE = 0.8  # capitalised in this share of its mid-sentence uses: a name; common practice, no source
+NAME_USES = 2  # ... and at least this often (one capitalised use may be a button label)
+SENTENCE_END = re.compile(r"[.!?:;\n]\s*$")
 
 
 @dataclass(frozen=True)
@@ -38,6 +42,7 @@ class Corpus:
     words: Mapping[str, ItemWords]  # item id -> its words
     weight: Mapping[str, float] = field(default_factory=dict)  # word -> part-of-speech weight
     phrases: frozenset[tuple[str, str]] = frozenset()  # recurring two-word terms
+    names: frozenset[str] = frozenset()  # words the catalogue writes capitalised (see find_names)
 
     def known(self, word: str) -> bool:
         """Whether the catalogue uses ``word`` (by stem) anywhere."""
@@ -93,7 +98,32 @@ def build_corpus(catalogue: Catalogue, wordnet: WordNet | None = None) -> Corpus
                 if word not in weight:
                     weight[word] = ACTION_WEIGHT if wordnet.usual_pos(word) in ("v", "r") else 1.0
     return Corpus(len(catalogue), MappingProxyType(dict(df)), MappingProxyType(words),
-                  MappingProxyType(weight), phrases)
+                  MappingProxyType(weight), phrases, find_names(catalogue))
+
+
+def find_names(catalogue: Catalogue) -> frozenset[str]:
+    """Words (lower-cased) the catalogue capitalises in at least NAME_SHARE of their uses
+    inside a sentence: place, product and month names and acronyms ("Harrowgate", "Flex",
+    "March", "VAT"). Nobody types "marches" for "March" or a synonym for a product's
+    name, so paraphrasing leaves them as they are. Sentence-initial words say nothing,
+    and neither do Title Case titles."""
+    upper: Counter[str] = Counter()
+    lower: Counter[str] = Counter()
+    for it in catalogue.items:
+        texts = [it.text] if _title_case(it.title) else [it.title, it.text]
+        for text in texts:
+            for m in TOKEN.finditer(text):
+                if not m.group()[0].isalpha() or SENTENCE_END.search(text[:m.start()]) \
+                        or not text[:m.start()].strip():
+                    continue
+                (upper if m.group()[0].isupper() else lower)[m.group().lower()] += 1
+    return frozenset(w for w, n in upper.items()
+                     if n >= NAME_USES and n >= NAME_SHARE * (n + lower[w]))
+
+
+def _title_case(title: str) -> bool:
+    long = [w for w in TOKEN.findall(title) if len(w) > 3 and w[0].isalpha()]
+    return len(long) >= 2 and sum(w[0].isupper() for w in long) > len(long) / 2
 
 
 def _adjacent_pairs(text: str) -> list[tuple[str, str]]:

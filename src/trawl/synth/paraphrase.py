@@ -47,13 +47,19 @@ class Rewording:
     hypernyms: bool = False
     phrases: frozenset[tuple[str, str]] = frozenset()  # kept whole: swapping half a term breaks it
     known: Callable[[str], bool] | None = None  # words the catalogue's domain uses
+    names: frozenset[str] = frozenset()  # kept as written: no synonym for "Harrowgate" or "March"
     _memo: dict[str, list[str]] = field(default_factory=dict, compare=False, repr=False)
 
     def sense(self, word: str, pos: str) -> int | None:
         """The offset of the sense ``word`` is read in, or None when it has no dominant
-        one (see ``_dominant``)."""
+        one (see ``_dominant``) or its base forms disagree on it."""
         bases = self.wordnet.base_forms(word, pos) if self.wordnet else []
-        return _dominant(self.wordnet, bases[0], pos) if bases else None
+        if not bases:
+            return None
+        # "receipts" is a lemma of its own (revenue) besides the plural of "receipt":
+        # a word whose readings disagree has no sense to keep
+        found = {_dominant(self.wordnet, b, pos) for b in bases}
+        return found.pop() if len(found) == 1 else None
 
     def alternatives(self, word: str) -> list[str]:
         """Common words that mean what ``word`` means: synonyms, then (when enabled)
@@ -117,7 +123,7 @@ class Rewording:
                     out.extend(toks[k:k + 2])
                     k += 2
                     continue
-                alts = self.alternatives(w) if is_content(w) else []
+                alts = self.alternatives(w) if is_content(w) and w not in self.names else []
                 out.append(rng.choice(alts) if alts and rng.random() < rate else w)
                 k += 1
         return " ".join(out)
@@ -143,6 +149,7 @@ DROP_ONE_AT, DROP_TWO_AT = 3, 4  # item words in a query before its rarest one o
 RATES = (0.35, 0.5, 0.65, 0.8, 1.0)
 GERUND_TO_BASE = 0.7  # "renewing loans" -> "renew loans": people type tasks in base form
 NUMBER_FLIP = 0.5  # singular or plural is the writer's choice, not the item's
+MIN_FORM_ZIPF = 3.0  # a re-formed word must occur once per million words or more; common practice, no source
 
 
 def plural(noun: str) -> str:
@@ -154,12 +161,15 @@ def plural(noun: str) -> str:
     return noun + "s"
 
 
-def retype(query: str, wordnet: WordNet | None, rng: random.Random) -> str:
+def retype(query: str, wordnet: WordNet | None, rng: random.Random,
+           names: Collection[str] = ()) -> str:
     """Word forms as a person would type them: gerunds to base verbs, and the head noun
     (the last word) singular or plural afresh, independently of the item's wording.
 
     The item's own inflections are an accident of how it was written; exact-form
-    matching should not get credit for them. Needs WordNet to know verbs and nouns."""
+    matching should not get credit for them. Needs WordNet to know verbs and nouns.
+    Names keep their number ("March" never becomes "marches"), and so does a head noun
+    whose other number is rare in ordinary text ("data" -> "datum")."""
     if wordnet is None:
         return query
     toks = query.split()
@@ -169,17 +179,24 @@ def retype(query: str, wordnet: WordNet | None, rng: random.Random) -> str:
             bases = wordnet.base_forms(w, "v")
             if bases and bases[0] != w:
                 toks[k] = bases[0]
-    if toks and toks[-1].isalpha() and is_content(toks[-1]) and rng.random() < NUMBER_FLIP:
-        w = toks[-1]
+    w = toks[-1] if toks else ""
+    if w.isalpha() and is_content(w) and w not in names and rng.random() < NUMBER_FLIP:
         bases = wordnet.base_forms(w, "n")
         # a base form rarer than the word itself is no singular ("pass" is not "pas"s)
         singular = [b for b in bases if b != w and " " not in b
                     and wordnet.tagged(b, "n") >= wordnet.tagged(w, "n")]
-        if singular:
-            toks[-1] = singular[0]
-        elif bases and len(w) > 3 and not w.endswith(("s", "ing")):  # no "measurings"
-            toks[-1] = plural(w)
+        flipped = (singular[0] if singular else
+                   plural(w) if bases and len(w) > 3 and not w.endswith(("s", "ing"))
+                   else None)  # no "measurings"
+        if flipped and _zipf(flipped) >= MIN_FORM_ZIPF:
+            toks[-1] = flipped
     return " ".join(toks)
+
+
+def _zipf(word: str) -> float:
+    from wordfreq import zipf_frequency
+
+    return zipf_frequency(word, "en")
 
 
 def drop_rarest(query: str, item_stems: Collection[str], idf: Callable[[str], float]
@@ -187,11 +204,14 @@ def drop_rarest(query: str, item_stems: Collection[str], idf: Callable[[str], fl
     """Leave out the item's rarest word (two when four or more remain): people seldom
     know an item's most specific term before they have found it, and a query that keeps
     every rare word hands the search to exact-word matching. Only words the item uses
-    count, and at least two of them stay."""
+    count, at least two of them stay, and the last word stays: it is the phrase's head,
+    what the phrase is about ("effect of jet noise on aircraft structures" without
+    "structures" is about nothing)."""
     toks = query.split()
     mine = [k for k, w in enumerate(toks) if is_content(w) and stem(w) in item_stems]
     n = 2 if len(mine) >= DROP_TWO_AT else 1 if len(mine) >= DROP_ONE_AT else 0
-    gone = set(sorted(mine, key=lambda k: (-idf(toks[k]), k))[:n])
+    open_ = [k for k in mine if k != len(toks) - 1]
+    gone = set(sorted(open_, key=lambda k: (-idf(toks[k]), k))[:n])
     return " ".join(w for k, w in enumerate(toks) if k not in gone)
 
 
@@ -199,7 +219,8 @@ def paraphrases(base: str, rewording: Rewording, rng: random.Random) -> list[str
     """Rewordings of ``base`` at increasing swap rates (duplicates and ``base`` removed)."""
     out: list[str] = []
     for rate in RATES:
-        q = retype(rewording.reword(base, rate, rng), rewording.wordnet, rng)
+        q = retype(rewording.reword(base, rate, rng), rewording.wordnet, rng,
+                   rewording.names)
         if q != base and q not in out:
             out.append(q)
     return out
