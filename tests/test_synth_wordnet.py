@@ -159,6 +159,10 @@ def test_words_whose_base_forms_disagree_are_not_swapped():
     assert wn.base_forms("receipts", "n") == ["receipts", "receipt"]
     assert rw.sense("receipts", "n") is None and rw.alternatives("receipts") == []
     assert "revenue" not in rw.alternatives("receipts")
+    # two-letter words are abbreviations: "pt" (part) is no "platinum", "ft" no "foot"
+    assert "platinum" in {lemma for off in wn.senses("pt", "n")
+                          for lemma in wn.synset("n", off).lemmas}
+    assert rw.alternatives("pt") == [] and rw.alternatives("ft") == []
     # names are never swapped
     assert Rewording(wn, names=frozenset({"cars"})).reword("cars", 1.0, random.Random(0)) \
         == "cars"

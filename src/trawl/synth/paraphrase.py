@@ -24,6 +24,7 @@ from .wordnet import WordNet
 MIN_ZIPF = 4.0  # about once per 100,000 words of ordinary text or more often
 SWAP_POS = ("n", "a")  # verb synonyms in WordNet are mostly phrasal and off-sense
 MAX_WORDS = 2  # longer WordNet lemmas ("force per unit area") read like definitions
+MIN_SWAP_LEN = 3  # two-letter words are abbreviations: "pt" (part) is no "platinum"
 MIN_USES = 2  # tagged uses a replacement needs: WordNet-only terms ("trial run") read oddly
 DOMINANT = 0.7  # share of a word's tagged uses its main sense needs for a blind swap
 
@@ -64,8 +65,8 @@ class Rewording:
     def alternatives(self, word: str) -> list[str]:
         """Common words that mean what ``word`` means: synonyms, then (when enabled)
         hypernyms, of its dominant sense in the part of speech it is usually used in
-        (no lexicon)."""
-        if self.wordnet is None:
+        (no lexicon); none for words under MIN_SWAP_LEN letters."""
+        if self.wordnet is None or len(word) < MIN_SWAP_LEN:
             return []
         pos = self.wordnet.usual_pos(word)
         if pos not in SWAP_POS:
