@@ -200,6 +200,7 @@ def review_export(qrels: str, queries: str, catalogue: str, output: str,
 
     from .catalogue import load_catalogue
     from .judgments import read_qrels
+    from .privacy import describe_counts
     from .queries import read_queries
     from .review import export_sheet, read_styles
     from .runs import read_run
@@ -226,10 +227,8 @@ def review_export(qrels: str, queries: str, catalogue: str, output: str,
                + ", ".join(f"{t} {n}" for t, n in summary.queries_per_type.items()))
     if provenance:
         click.echo(f"query styles from {provenance}")
-    removed = {k: v for k, v in summary.scrubbed.items() if v}
     if not no_scrub:
-        click.echo("scrubbed from query text: "
-                   + (", ".join(f"{v} {k}" for k, v in removed.items()) or "nothing found"))
+        click.echo("scrubbed from query text: " + describe_counts(summary.scrubbed))
     if summary.skipped_unknown_items:
         click.echo(f"warning: {summary.skipped_unknown_items} pooled run result(s) name items "
                    "not in the catalogue; left out", err=True)
@@ -462,6 +461,7 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
 
     from .catalogue import load_catalogue
     from .errors import UsageError
+    from .privacy import describe_counts
     from .queries import read_queries
     from .synth import LlmClient, load_wordnet, read_lexicon, synthesise, write_silver
     from .synth.llm import PromptScrubber, keep_text
@@ -534,8 +534,7 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
     click.echo("Silver judgments are estimates, not human labels; see DEVELOPERS.md "
                "'How good is silver?' for their measured agreement with people.")
     if scrubbed is not None:
-        click.echo("scrubbed from LLM prompts: " + (", ".join(
-            f"{n} {kind}" for kind, n in scrubbed.items() if n) or "nothing found"))
+        click.echo("scrubbed from LLM prompts: " + describe_counts(scrubbed))
     for p in paths:
         click.echo(f"wrote {p}")
 
