@@ -220,19 +220,30 @@ def test_summary_rows_match_provenance():
     assert json.loads(json.dumps(s.as_dict())) == s.as_dict()
 
 
-def test_title_phrase_is_a_run_of_title_words_around_the_most_salient():
+def test_title_phrase_is_the_title_or_a_run_around_the_most_salient_word():
+    from trawl.synth.keyword import MAX_PHRASE
+
+    whole = Item("art-8", "article",
+                 "Borrowing rules for reference books, maps and rare local history journals",
+                 "Reference books stay in the building.")
     long = Item("art-9", "article",
-                "Borrowing rules for reference books, maps and rare local history journals",
+                "Borrowing rules, renewal periods and overdue charges for reference books, "
+                "atlases, maps, rare local history journals and recorded music",
                 "Reference books stay in the building.")
-    cat = Catalogue("t", ITEMS + (long,))
+    cat = Catalogue("t", ITEMS + (whole, long))
     corpus = build_corpus(cat)
+    assert title_phrase(whole, corpus, random.Random(0)) == list(corpus.words["art-8"].title)
     title = list(corpus.words["art-9"].title)
+    assert len(title) > MAX_PHRASE
     top = next(w for w, _ in corpus.salience("art-9") if w in title)
-    for seed in range(30):
+    sizes = set()
+    for seed in range(40):
         run = title_phrase(long, corpus, random.Random(seed))
-        assert 3 <= len(run) <= 5 and top in run
+        assert 3 <= len(run) <= MAX_PHRASE and top in run
         k = title.index(run[0])
         assert title[k:k + len(run)] == run  # contiguous, in title order
+        sizes.add(len(run))
+    assert len(sizes) > 3  # run lengths vary
     short = title_phrase(ITEMS[1], build_corpus(CAT), random.Random(0))
     assert short == ["overdue", "fines"]
 

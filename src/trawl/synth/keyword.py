@@ -52,12 +52,19 @@ def keyword_query(item: Item, corpus: Corpus, rng: random.Random) -> str:
     return " ".join(salient_terms(item, corpus, rng))
 
 
-MAX_PHRASE = 5  # longest run of title words a query keeps
+# Longest run of title words a query keeps. A title states its item's topic as a whole:
+# a window of a long title ("effect of jet noise on aircraft structures" -> "jet noise
+# aircraft") keeps exact words but loses what ties them, and exact-word matching wins
+# such fragments. Measured in bench/silver_agreement.py (DEVELOPERS.md): windows of 3-5
+# words put bm25 ahead of minilm on Cranfield silver, unlike people's judgments; whole
+# titles up to 12 content words ranked all five systems as people did. The cap only
+# guards against run-on titles; short product titles are whole either way.
+MAX_PHRASE = 12
 
 
 def title_phrase(item: Item, corpus: Corpus, rng: random.Random) -> list[str]:
-    """The title's content words in order (a run of at most MAX_PHRASE around its most
-    salient word when longer); salient terms when the title has no content words.
+    """The title's content words in order (a run of 3 to MAX_PHRASE words around its
+    most salient word when longer); salient terms when the title has no content words.
 
     Titles are written for people to read, so their words hang together; a query built
     from them stays meaningful after paraphrasing, where a bag of rare words does not
