@@ -21,7 +21,8 @@ from .wordnet import WordNet
 ACTION_WEIGHT = 0.3  # common practice, no source: queries name things more than actions
 PHRASE_MIN_ITEMS = 3  # a word pair in 3+ items is a term of the trade; common practice, no source
 TITLE_BOOST = 3.0  # a title word counts like three body mentions; common practice, no source
-NAME_SHARE = 0.8  # capitalised in this share of its mid-sentence uses: a name; common practice, no source
+# A word capitalised in this share of its mid-sentence uses is a name; common practice, no source
+NAME_SHARE = 0.8
 NAME_USES = 2  # ... and at least this often (one capitalised use may be a button label)
 SENTENCE_END = re.compile(r"[.!?:;\n]\s*$")
 

@@ -57,7 +57,7 @@ def keyword_query(item: Item, corpus: Corpus, rng: random.Random) -> str:
 # aircraft") keeps exact words but loses what ties them, and exact-word matching wins
 # such fragments. Measured in bench/silver_agreement.py (DEVELOPERS.md): windows of 3-5
 # words put bm25 ahead of minilm on Cranfield silver, unlike people's judgments; whole
-# titles up to 12 content words ranked all five systems as people did. The cap only
+# titles up to 12 content words ranked all five systems there as people did. The cap only
 # guards against run-on titles; short product titles are whole either way.
 MAX_PHRASE = 12
 

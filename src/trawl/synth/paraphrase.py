@@ -150,7 +150,8 @@ DROP_ONE_AT, DROP_TWO_AT = 3, 4  # item words in a query before its rarest one o
 RATES = (0.35, 0.5, 0.65, 0.8, 1.0)
 GERUND_TO_BASE = 0.7  # "renewing loans" -> "renew loans": people type tasks in base form
 NUMBER_FLIP = 0.5  # singular or plural is the writer's choice, not the item's
-MIN_FORM_ZIPF = 3.0  # a re-formed word must occur once per million words or more; common practice, no source
+# A re-formed word must occur once per million words or more; common practice, no source
+MIN_FORM_ZIPF = 3.0
 
 
 def plural(noun: str) -> str:
@@ -211,8 +212,8 @@ def drop_rarest(query: str, item_stems: Collection[str], idf: Callable[[str], fl
     toks = query.split()
     mine = [k for k, w in enumerate(toks) if is_content(w) and stem(w) in item_stems]
     n = 2 if len(mine) >= DROP_TWO_AT else 1 if len(mine) >= DROP_ONE_AT else 0
-    open_ = [k for k in mine if k != len(toks) - 1]
-    gone = set(sorted(open_, key=lambda k: (-idf(toks[k]), k))[:n])
+    droppable = [k for k in mine if k != len(toks) - 1]
+    gone = set(sorted(droppable, key=lambda k: (-idf(toks[k]), k))[:n])
     return " ".join(w for k, w in enumerate(toks) if k not in gone)
 
 
