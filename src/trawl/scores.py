@@ -327,5 +327,6 @@ def silver_provenance(qrels_path: str | Path) -> Path | None:
 
 def silver_note(qrels_path: str | Path) -> str:
     return (f"note: {qrels_path} holds silver (machine-made) judgments, so every figure above "
-            "is an estimate of what people's judgments would give; `trawl review` and "
-            "`trawl agree` measure how far to trust them")
+            "is an estimate of what people's judgments would give (read it for the order of "
+            "systems: synthesised queries are easier, so levels run high); `trawl review` "
+            "and `trawl agree` measure how far to trust them")

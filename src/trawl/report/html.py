@@ -460,7 +460,8 @@ def _reading_guide(bundle, number: int) -> Markup:
                      "section, corrected with Holm's method across the rows of its table; "
                      f"marks use alpha {alpha:g}."),
         ("silver", "judgments made by the tool from the catalogue itself; useful to rank "
-                   "systems, but their absolute values are estimates."),
+                   "systems, but their absolute values are estimates, and usually higher "
+                   "than people's queries would give, since synthesised queries are easier."),
     ]
     return _section("reading", number, "How to read this report",
                     el("dl", {"class_": "terms"},
