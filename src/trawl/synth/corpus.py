@@ -113,9 +113,13 @@ def find_names(catalogue: Catalogue) -> frozenset[str]:
     for it in catalogue.items:
         texts = [it.text] if _title_case(it.title) else [it.title, it.text]
         for text in texts:
+            end = 0  # where the previous token ended
             for m in TOKEN.finditer(text):
-                if not m.group()[0].isalpha() or SENTENCE_END.search(text[:m.start()]) \
-                        or not text[:m.start()].strip():
+                # what decides a sentence start lies between the previous token and this one
+                gap = text[end:m.start()]
+                first = end == 0 and not gap.strip()
+                end = m.end()
+                if first or not m.group()[0].isalpha() or SENTENCE_END.search(gap):
                     continue
                 (upper if m.group()[0].isupper() else lower)[m.group().lower()] += 1
     return frozenset(w for w, n in upper.items()
