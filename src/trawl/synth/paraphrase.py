@@ -77,8 +77,6 @@ class Rewording:
         return self._memo[word]
 
     def _alternatives(self, word: str, pos: str, offset: int) -> list[str]:
-        from wordfreq import zipf_frequency
-
         wn = self.wordnet
         syn = wn.synset(pos, offset)
         if syn is None or any(_numeral(x) for x in syn.lemmas):
@@ -95,7 +93,7 @@ class Rewording:
                         and not own & ({stem(p) for p in parts} | set(parts))
                         and _dominant(wn, alt, pos) == off
                         and sum(wn.sense_counts(alt, pos)) >= MIN_USES
-                        and all(zipf_frequency(p, "en") >= self.min_zipf for p in parts)
+                        and all(_zipf(p) >= self.min_zipf for p in parts)
                         and (self.known is None or all(self.known(p) for p in parts))):
                     out.append(alt)
         return out
@@ -196,6 +194,7 @@ def retype(query: str, wordnet: WordNet | None, rng: random.Random,
 
 
 def _zipf(word: str) -> float:
+    """How common ``word`` is in ordinary English (wordfreq's Zipf scale)."""
     from wordfreq import zipf_frequency
 
     return zipf_frequency(word, "en")
