@@ -151,8 +151,8 @@ def write_judged_runs(folder: Path, queries: int, depth: int, items: int,
 def static_model(given: str | None) -> Path:
     if given:
         return Path(given)
-    from trawl.retrievers.cache import default_cache_dir
-    from trawl.retrievers.distill import distill_static
+    from trawl.embedcache import default_cache_dir
+    from trawl.distill import distill_static
 
     folder = default_cache_dir() / "bench-static-256"
     if not (folder / "config.json").is_file():

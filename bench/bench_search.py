@@ -27,7 +27,7 @@ from _cranfield import cranfield
 from trawl.bundled import model_path
 from trawl.index import build_index, open_index
 from trawl.retrievers import EncoderLoader
-from trawl.retrievers.cache import default_cache_dir
+from trawl.embedcache import default_cache_dir
 
 K = 100
 WARMUP = 10

@@ -23,8 +23,8 @@ from _cranfield import cranfield, timed, verdict
 from trawl.bundled import model_path
 from trawl.index import build_index, open_index
 from trawl.retrievers import EncoderLoader, parse_spec
-from trawl.retrievers.cache import default_cache_dir
-from trawl.retrievers.distill import distill_static
+from trawl.embedcache import default_cache_dir
+from trawl.distill import distill_static
 
 
 def quality(cat, queries, qrels, spec: str, loader: EncoderLoader, cache: Path) -> dict:

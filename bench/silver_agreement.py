@@ -31,8 +31,8 @@ from trawl.index import retrieve
 from trawl.judgments import read_qrels
 from trawl.metrics import per_query
 from trawl.queries import read_queries
-from trawl.retrievers.distill import distill_static
-from trawl.retrievers.fusion import reciprocal_rank_fusion
+from trawl.distill import distill_static
+from trawl.fusion import reciprocal_rank_fusion
 from trawl.synth import synthesise
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -90,7 +90,7 @@ def test_a_cache_holding_two_vector_sizes_for_one_encoder_is_refused(tmp_path):
     """What a second writer with different weights under the same fingerprint, or a
     damaged cache, would leave: the build stops with the fix instead of mixing sizes."""
     from trawl.errors import TrawlError
-    from trawl.retrievers.cache import EmbeddingCache, text_key
+    from trawl.embedcache import EmbeddingCache, text_key
 
     from .retrieval_fakes import FakeLoader, tiny_catalogue
 

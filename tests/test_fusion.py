@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 
 from trawl.errors import UsageError
-from trawl.retrievers.fusion import reciprocal_rank_fusion
+from trawl.fusion import reciprocal_rank_fusion
 from trawl.runs import make_run, read_run, write_run
 
 from .conftest import invoke

@@ -335,7 +335,7 @@ def test_resumed_build_with_the_real_model_is_bit_identical(tmp_path, monkeypatc
 
 
 def _write_many(folder: str, worker: int) -> None:
-    from trawl.retrievers.cache import EmbeddingCache
+    from trawl.embedcache import EmbeddingCache
 
     with EmbeddingCache(folder, "enc") as cache:
         for batch in range(40):
@@ -346,7 +346,7 @@ def _write_many(folder: str, worker: int) -> None:
 def test_embedding_cache_stays_consistent_with_two_writers(tmp_path):
     import multiprocessing
 
-    from trawl.retrievers.cache import EmbeddingCache
+    from trawl.embedcache import EmbeddingCache
 
     ctx = multiprocessing.get_context("spawn")
     procs = [ctx.Process(target=_write_many, args=(str(tmp_path), w)) for w in (0, 1)]

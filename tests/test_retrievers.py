@@ -10,7 +10,7 @@ import pytest
 from trawl.errors import UsageError
 from trawl.retrievers import EncoderSpec, normalise, parse_spec
 from trawl.retrievers.lexical import LexicalIndex, tokenise
-from trawl.retrievers.topk import id_ranks, top_k
+from trawl.ranking import id_ranks, top_k
 from trawl.runs import rank_order
 
 

@@ -7,7 +7,7 @@ import json
 import numpy as np
 import pytest
 
-from trawl.bench import measure_search
+from trawl.latency import measure_search
 from trawl.index import open_index
 from trawl.runs import read_run
 

@@ -9,7 +9,7 @@ import faiss
 import pytest
 import torch
 
-from trawl.bench import measure_search, use_threads
+from trawl.latency import measure_search, use_threads
 from trawl.errors import UsageError
 from trawl.index import build_index, open_index
 

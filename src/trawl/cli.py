@@ -643,7 +643,7 @@ def search(index: str, queries: str, output: str, k: int, catalogue: str | None,
     """
     from pathlib import Path
 
-    from .bench import check_threads, measure_search
+    from .latency import check_threads, measure_search
     from .catalogue import load_catalogue
     from .files import write_text_atomic
     from .index import open_index, read_manifest
@@ -694,7 +694,7 @@ def fuse(runs: tuple[str, ...], output: str, rrf_k: int, depth: int | None,
     Example:
       trawl fuse runs/minilm.run runs/bm25.run -o runs/hybrid.run
     """
-    from .retrievers.fusion import reciprocal_rank_fusion
+    from .fusion import reciprocal_rank_fusion
     from .runs import read_run, write_run
 
     if len(runs) < 2:
@@ -723,7 +723,7 @@ def distill(output: str, pca_dims: int, quiet: bool) -> None:
     """
     import time
 
-    from .retrievers.distill import distill_static
+    from .distill import distill_static
 
     start = time.perf_counter()
     path = distill_static(output, pca_dims=pca_dims, quiet=quiet)

@@ -37,8 +37,8 @@ from .errors import EncoderMismatchError, InputError, StaleIndexError, TrawlErro
 from .files import atomic_write
 from .progress import progress
 from .retrievers import EncoderLoader, EncoderSpec, default_loader, parse_spec
-from .retrievers.cache import EmbeddingCache, default_cache_dir, text_key
-from .retrievers.topk import id_ranks, top_k
+from .embedcache import EmbeddingCache, default_cache_dir, text_key
+from .ranking import id_ranks, top_k
 from .runs import Run
 
 FORMAT = "trawl-index/1"

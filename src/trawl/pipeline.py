@@ -25,7 +25,7 @@ from typing import Any
 import numpy as np
 
 from . import __version__
-from .bench import check_threads
+from .latency import check_threads
 from .catalogue import Catalogue, check_catalogue, load_catalogue
 from .errors import (EncoderMismatchError, InputError, StaleIndexError, TrawlError,
                      UsageError)
@@ -36,7 +36,7 @@ from .privacy import KINDS as PRIVACY_KINDS
 from .privacy import describe_counts, scrub_texts
 from .queries import read_queries
 from .retrievers import EncoderSpec, default_loader, parse_spec
-from .retrievers.fusion import RRF_K, reciprocal_rank_fusion
+from .fusion import RRF_K, reciprocal_rank_fusion
 from .runs import Run, read_run, write_run
 
 Notify = Callable[[str], None]
@@ -317,7 +317,7 @@ def search_set(systems: Sequence[System], indexes: Mapping[str, Any],
     """Search (timed under ``threads`` compute threads; None: the libraries' defaults)
     with every system, writing ``folder/NAME.run`` and its latency sidecar; an earlier
     run for exactly the same inputs, thread count included, is kept unless ``retime``."""
-    from .bench import measure_search, use_threads
+    from .latency import measure_search, use_threads
 
     runs: dict[str, Run] = {}
     latency: dict[str, dict[str, Any]] = {}
@@ -661,7 +661,7 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
     synthesised from (for quick runs). The embedding cache defaults to ``OUT/cache``.
     ``threads`` is passed to ``evaluate``.
     """
-    from .retrievers.distill import distill_static
+    from .distill import distill_static
     from .synth import synthesise, write_silver
 
     say = notify or (lambda _msg: None)

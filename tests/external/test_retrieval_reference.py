@@ -162,7 +162,7 @@ def test_distill_runs_offline_and_gives_a_static_encoder(cran, work, monkeypatch
     # Offline: any socket use fails the test. Reference figure for the distilled encoder on
     # Cranfield (../shared/data/cranfield/README.md, model2vec, 256 dims): nDCG@10 0.274;
     # tolerance +/- 0.01 (our choice: PCA and the SIF weights are deterministic on CPU).
-    from trawl.retrievers.distill import distill_static
+    from trawl.distill import distill_static
 
     def no_network(*args, **kw):
         raise AssertionError("distill tried to open a network connection")

@@ -24,7 +24,7 @@ def calibrate_profile(catalogue: Catalogue, queries: Mapping[str, str], source: 
                       ) -> OverlapProfile:
     """An overlap profile matching ``queries`` against their likeliest items."""
     from ..index import retrieve
-    from ..retrievers.fusion import reciprocal_rank_fusion
+    from ..fusion import reciprocal_rank_fusion
 
     if len(queries) < MIN_QUERIES:
         raise UsageError(f"calibration needs at least {MIN_QUERIES} real queries, got "

@@ -21,7 +21,7 @@ def round_trip_keep(catalogue: Catalogue, merged: Sequence[Merged], specs: Seque
                     ) -> list[bool]:
     """For each merged query, whether a source is in the (fused) checkers' top ``depth``."""
     from ..index import retrieve
-    from ..retrievers.fusion import reciprocal_rank_fusion
+    from ..fusion import reciprocal_rank_fusion
 
     if depth < 1:
         raise UsageError(f"check depth {depth} must be >= 1")

@@ -13,8 +13,8 @@ import os
 import shutil
 from pathlib import Path
 
-from .. import bundled
-from ..errors import UsageError
+from . import bundled
+from .errors import UsageError
 
 DEFAULT_PCA_DIMS = 256
 MODEL_DIMS = 384  # all-MiniLM-L6-v2's output size: PCA cannot keep more

@@ -9,8 +9,8 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-from ..errors import UsageError
-from ..runs import Run, rank_order
+from .errors import UsageError
+from .runs import Run, rank_order
 
 RRF_K = 60  # the constant used in the original paper
 
