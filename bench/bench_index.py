@@ -22,7 +22,7 @@ from _cranfield import cranfield, timed, verdict
 
 from trawl.bundled import model_path
 from trawl.index import DEFAULT_BATCH_SIZE, build_index
-from trawl.retrievers import EncoderLoader
+from trawl.retrievers.loading import EncoderLoader
 
 
 def main() -> None:

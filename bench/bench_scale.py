@@ -166,7 +166,8 @@ def static_model(given: str | None) -> Path:
 def step_build(a: dict) -> dict:
     import trawl.index as index_mod
     from trawl.catalogue import load_catalogue
-    from trawl.retrievers import EncoderLoader, parse_spec
+    from trawl.retrievers.loading import EncoderLoader
+    from trawl.retrievers.spec import parse_spec
 
     meter = PeakMeter()
     out: dict = {"rss_start": rss()}

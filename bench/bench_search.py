@@ -26,7 +26,7 @@ from _cranfield import cranfield
 
 from trawl.bundled import model_path
 from trawl.index import build_index, open_index
-from trawl.retrievers import EncoderLoader
+from trawl.retrievers.loading import EncoderLoader
 from trawl.embedcache import default_cache_dir
 
 K = 100

@@ -22,7 +22,8 @@ from _cranfield import cranfield, timed, verdict
 
 from trawl.bundled import model_path
 from trawl.index import build_index, open_index
-from trawl.retrievers import EncoderLoader, parse_spec
+from trawl.retrievers.loading import EncoderLoader
+from trawl.retrievers.spec import parse_spec
 from trawl.embedcache import default_cache_dir
 from trawl.distill import distill_static
 

@@ -11,7 +11,7 @@ import hashlib
 import numpy as np
 
 from trawl.catalogue import Catalogue, Item
-from trawl.retrievers import EncoderLoader, normalise
+from trawl.retrievers.loading import EncoderLoader, normalise
 
 
 def text_vector(text: str, dim: int) -> np.ndarray:

@@ -313,7 +313,7 @@ class _Interrupting:
 def test_resumed_build_with_the_real_model_is_bit_identical(tmp_path, monkeypatch):
     # Batch composition changes float rounding in a transformer, so a resumed build is only
     # identical if it embeds the same chunks in the same batches; this checks it does.
-    from trawl.retrievers import default_loader
+    from trawl.retrievers.loading import default_loader
 
     monkeypatch.setattr(index_mod, "EMBED_CHUNK", 8)
     cat = tiny_catalogue(40)

@@ -8,7 +8,8 @@ import numpy as np
 import pytest
 
 from trawl.errors import UsageError
-from trawl.retrievers import EncoderSpec, normalise, parse_spec
+from trawl.retrievers.loading import normalise
+from trawl.retrievers.spec import EncoderSpec, parse_spec
 from trawl.retrievers.lexical import LexicalIndex, tokenise
 from trawl.ranking import id_ranks, top_k
 from trawl.runs import rank_order
@@ -115,7 +116,7 @@ def test_bm25_parameters_change_scores():
 # st pays for importing sentence-transformers and transformers (seconds, cold)
 @pytest.mark.parametrize("kind", [pytest.param("st", marks=pytest.mark.slow), "static"])
 def test_unloadable_model_folder_is_a_user_error(tmp_path, kind):
-    from trawl.retrievers import EncoderLoader
+    from trawl.retrievers.loading import EncoderLoader
 
     (tmp_path / "config.json").write_text("{}")
     encoder = EncoderLoader().encoder(parse_spec(f"{kind}:{tmp_path}"))

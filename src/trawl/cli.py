@@ -581,7 +581,7 @@ def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int 
     """
     from .catalogue import load_catalogue
     from .index import HnswParams, build_index
-    from .retrievers import parse_spec
+    from .retrievers.spec import parse_spec
 
     given = {"--hnsw-m": hnsw_m, "--hnsw-ef-construction": hnsw_ef_construction,
              "--hnsw-ef-search": hnsw_ef_search}

@@ -36,7 +36,8 @@ from .catalogue import Catalogue
 from .errors import EncoderMismatchError, InputError, StaleIndexError, TrawlError, UsageError
 from .files import atomic_write
 from .progress import progress
-from .retrievers import EncoderLoader, EncoderSpec, default_loader, parse_spec
+from .retrievers.loading import EncoderLoader, default_loader
+from .retrievers.spec import EncoderSpec, parse_spec
 from .embedcache import EmbeddingCache, default_cache_dir, text_key
 from .ranking import id_ranks, top_k
 from .runs import Run

@@ -35,7 +35,8 @@ from .metrics import DEFAULT_METRICS, parse_metrics
 from .privacy import KINDS as PRIVACY_KINDS
 from .privacy import describe_counts, scrub_texts
 from .queries import read_queries
-from .retrievers import EncoderSpec, default_loader, parse_spec
+from .retrievers.loading import default_loader
+from .retrievers.spec import EncoderSpec, parse_spec
 from .fusion import RRF_K, reciprocal_rank_fusion
 from .runs import Run, read_run, write_run
 

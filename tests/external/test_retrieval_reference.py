@@ -13,7 +13,8 @@ from trawl.catalogue import load_catalogue
 from trawl.index import HnswParams, build_index, open_index
 from trawl.judgments import read_qrels
 from trawl.queries import read_queries
-from trawl.retrievers import default_loader, parse_spec
+from trawl.retrievers.loading import default_loader
+from trawl.retrievers.spec import parse_spec
 from trawl.retrievers.lexical import LexicalIndex, tokenise
 
 ir_measures = pytest.importorskip("ir_measures")

@@ -16,7 +16,8 @@ import numpy as np
 
 from .. import bundled
 from ..errors import UsageError
-from . import EncoderLoader, EncoderSpec, normalise
+from .loading import EncoderLoader, normalise
+from .spec import EncoderSpec
 
 if TYPE_CHECKING:
     from sentence_transformers import SentenceTransformer

@@ -13,7 +13,7 @@ from typing import Any
 
 import numpy as np
 
-from . import EncoderSpec
+from .spec import EncoderSpec
 
 STOPWORDS = "en"
 TOKENISER = {"pattern": r"(?u)\b\w\w+\b", "lower": True, "stopwords": "bm25s english",

@@ -12,7 +12,8 @@ from typing import Any
 import numpy as np
 
 from ..errors import UsageError
-from . import EncoderLoader, EncoderSpec, normalise
+from .loading import EncoderLoader, normalise
+from .spec import EncoderSpec
 
 
 def load_static_model(path: str) -> Any:
