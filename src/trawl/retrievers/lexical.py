@@ -4,6 +4,11 @@ Variant: bm25s' ``lucene`` scoring (Robertson & Zaragoza, 2009, with Lucene's id
 ``log(1 + (N - df + 0.5) / (df + 0.5))`` and document-length normalisation by ``b``),
 tokens from scikit-learn's word pattern, lower-cased, English stop words removed,
 no stemming.
+
+A lexical retriever returns only items that share at least one term with the query
+(score > 0: every Lucene idf is positive, so any shared term scores). Filling the top k
+with non-matching items would rank them by id alone, which inflates recall at depth and
+changes fused runs; fewer than k results is a normal run.
 """
 
 from __future__ import annotations
@@ -13,6 +18,7 @@ from typing import Any
 
 import numpy as np
 
+from ..ranking import top_k
 from .spec import EncoderSpec
 
 STOPWORDS = "en"
@@ -56,3 +62,15 @@ class LexicalIndex:
             ids = self._model.get_tokens_ids(tokens)
             out.append(self._model.get_scores_from_ids(ids))
         return np.asarray(out, dtype=np.float32).reshape(len(queries), -1)
+
+    def matches(self, queries: list[str], k: int,
+                ranks: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]]:
+        """Per query, (positions, scores) of its best ``k`` matching items in trec_eval
+        order (``ranks``: ``ranking.id_ranks`` of the item ids); items scoring 0 share
+        no term with the query and are left out, so a list may be shorter than ``k``."""
+        out = []
+        for row in self.scores(queries):
+            hit = np.flatnonzero(row > 0)
+            pick = top_k(row[hit], k, ranks, candidates=hit)
+            out.append((pick, row[pick]))
+        return out
