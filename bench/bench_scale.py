@@ -164,7 +164,7 @@ def static_model(given: str | None) -> Path:
 # --- child steps -----------------------------------------------------------------------------
 
 def step_build(a: dict) -> dict:
-    import trawl.index as index_mod
+    import trawl.index.build as index_mod
     from trawl.catalogue import load_catalogue
     from trawl.retrievers.loading import EncoderLoader
     from trawl.retrievers.spec import parse_spec

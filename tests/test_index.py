@@ -9,7 +9,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from trawl import index as index_mod
+from trawl.index import build as index_build
 from trawl.catalogue import Catalogue, Item
 from trawl.errors import EncoderMismatchError, InputError, StaleIndexError, UsageError
 from trawl.index import HnswParams, build_index, open_index, retrieve
@@ -60,7 +60,7 @@ def test_editing_items_re_embeds_only_those(tmp_path):
 
 
 def test_interrupted_build_leaves_no_folder_and_resumes_to_the_same_bytes(tmp_path, monkeypatch):
-    monkeypatch.setattr(index_mod, "EMBED_CHUNK", 4)
+    monkeypatch.setattr(index_build, "EMBED_CHUNK", 4)
     cat = tiny_catalogue()
     clean = tmp_path / "clean"
     build_index(cat, "minilm", clean, cache_dir=tmp_path / "c1", quiet=True, loader=FakeLoader())
@@ -101,7 +101,7 @@ def test_second_builder_of_the_same_folder_is_refused_naming_the_pid(tmp_path, m
 
     monkeypatch.setenv("TRAWL_CACHE_DIR", str(tmp_path / "c"))
     (tmp_path / "cat.jsonl").write_text('{"id": "a", "type": "faq", "title": "Late fees"}\n')
-    with index_mod._build_lock(tmp_path / "idx"):
+    with index_build._build_lock(tmp_path / "idx"):
         result = invoke(["index", tmp_path / "cat.jsonl", "-e", "bm25", "-o", tmp_path / "idx"])
     assert result.exit_code == 2
     assert result.stderr == (f"error: index folder {tmp_path / 'idx'} is in use by pid "
@@ -315,7 +315,7 @@ def test_resumed_build_with_the_real_model_is_bit_identical(tmp_path, monkeypatc
     # identical if it embeds the same chunks in the same batches; this checks it does.
     from trawl.retrievers.loading import default_loader
 
-    monkeypatch.setattr(index_mod, "EMBED_CHUNK", 8)
+    monkeypatch.setattr(index_build, "EMBED_CHUNK", 8)
     cat = tiny_catalogue(40)
     real = default_loader()
     build_index(cat, "minilm", tmp_path / "clean", cache_dir=tmp_path / "c1", quiet=True,

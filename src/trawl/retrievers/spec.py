@@ -104,9 +104,7 @@ def parse_spec(spec: str, *, check_paths: bool = True) -> EncoderSpec:
             raise _bad(spec, f"{kind}: needs a model folder, e.g. {kind}:models/my-model")
         path = Path(arg.strip()).expanduser().resolve()
         if check_paths and not path.is_dir():
-            raise UsageError(f"encoder {spec!r}: model folder {arg.strip()} not found; "
-                             + ("create one with `trawl distill -o DIR`" if kind == "static"
-                                else "give a local sentence-transformers folder"))
+            raise _no_folder(spec, kind, arg.strip())
         if kind == "static":
             _allow(spec, options, ())
             return EncoderSpec(kind, str(path))
@@ -124,6 +122,25 @@ def parse_spec(spec: str, *, check_paths: bool = True) -> EncoderSpec:
             raise _bad(spec, f"b={b:g} must be between 0 and 1")
         return EncoderSpec(kind, k1=k1, b=b)
     raise _bad(spec, f"unknown encoder {kind!r}")
+
+
+def as_spec(spec: EncoderSpec | str, *, check_paths: bool = True) -> EncoderSpec:
+    """``spec`` itself when already parsed, else ``parse_spec(spec)``.
+
+    Entry points accept either, so a spec parsed once by the caller travels as a value
+    down to the encoder and the embedding cache instead of being parsed again.
+    """
+    if not isinstance(spec, EncoderSpec):
+        return parse_spec(spec, check_paths=check_paths)
+    if check_paths and spec.path and not Path(spec.path).is_dir():
+        raise _no_folder(str(spec), spec.kind, spec.path)
+    return spec
+
+
+def _no_folder(spec: str, kind: str, folder: str) -> UsageError:
+    return UsageError(f"encoder {spec!r}: model folder {folder} not found; "
+                      + ("create one with `trawl distill -o DIR`" if kind == "static"
+                         else "give a local sentence-transformers folder"))
 
 
 def _allow(spec: str, options: dict[str, str], allowed: tuple[str, ...]) -> None:

@@ -1,0 +1,269 @@
+"""Building an index folder: embedding through the cache, writing vectors or the bm25
+index, and swapping the finished folder into place.
+
+Builds are written into a hidden sibling folder and renamed into place under a lock, so
+the output folder is always either the previous complete index or absent, and two
+builds of the same folder never interleave. Vectors come from the embedding cache when
+the same text was embedded before with the same encoder, so re-indexing an unchanged
+catalogue embeds nothing and an interrupted build resumes where it stopped.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import fcntl
+import hashlib
+import json
+import os
+import shutil
+import time
+from collections.abc import Iterable, Iterator, Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from ..catalogue import Catalogue
+from ..embedcache import EmbeddingCache, default_cache_dir, text_key
+from ..errors import TrawlError, UsageError
+from ..files import atomic_write
+from ..progress import progress
+from ..retrievers.loading import EncoderLoader, default_loader
+from ..retrievers.spec import EncoderSpec, as_spec
+from .manifest import (ANN_KINDS, HNSW_FILE, IDS, LEXICAL_DIR, MANIFEST, VECTORS, IndexInfo,
+                       info_from_manifest, make_manifest, package_version, write_json)
+
+EMBED_CHUNK = 256   # texts per cache commit: the unit an interrupted build resumes from
+CACHE_SLICE = 5000  # cached vectors fetched at a time while filling the matrix
+DEFAULT_BATCH_SIZE = 32  # sentence-transformers' own default
+
+
+
+@dataclass(frozen=True)
+class HnswParams:
+    """faiss HNSW settings; defaults reach recall@10 >= 0.98 vs exact on real embeddings
+    (tested on Cranfield with minilm)."""
+
+    m: int = 32
+    ef_construction: int = 200
+    ef_search: int = 128
+
+    def __post_init__(self) -> None:
+        for name in ("m", "ef_construction", "ef_search"):
+            if getattr(self, name) < 1:
+                raise UsageError(f"HNSW {name}={getattr(self, name)} must be >= 1")
+
+
+def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Path, *,
+                ann: str = "exact", cache_dir: str | Path | None = None,
+                batch_size: int = DEFAULT_BATCH_SIZE, quiet: bool = False,
+                hnsw: HnswParams | None = None, loader: EncoderLoader | None = None) -> IndexInfo:
+    """Build (or incrementally update) the index of ``catalogue`` with encoder ``spec``
+    (parsed already, or a spec string parsed here)."""
+    enc_spec = as_spec(spec)
+    if ann not in ANN_KINDS:
+        raise UsageError(f"ann={ann!r} is not one of: {', '.join(ANN_KINDS)}")
+    if enc_spec.lexical and ann != "exact":
+        raise UsageError(f"--ann {ann} applies to dense encoders; bm25 searches its own "
+                         "inverted index exactly")
+    if hnsw is not None and ann != "hnsw":
+        raise UsageError("HNSW parameters were given but --ann is not hnsw; add --ann hnsw")
+    if batch_size < 1:
+        raise UsageError(f"batch size {batch_size} must be >= 1")
+    out = Path(out_dir)
+    _refuse_foreign(out)
+    loader = loader or default_loader()
+    cache_root = Path(cache_dir) if cache_dir is not None else default_cache_dir()
+    with _build_lock(out):
+        _recover_leftovers(out)
+        start = time.perf_counter()
+        tmp = out.parent / f".{out.name}.building-{os.getpid()}"
+        shutil.rmtree(tmp, ignore_errors=True)
+        tmp.mkdir(parents=True)
+        try:
+            if enc_spec.lexical:
+                fingerprint, dim, embedded = _write_lexical(catalogue, enc_spec, tmp)
+                ann_params: dict[str, Any] = {}
+            else:
+                encoder = loader.encoder(enc_spec)
+                fingerprint = encoder.fingerprint
+                vectors, embedded = _embed(catalogue, encoder, cache_root, batch_size, quiet)
+                dim = int(vectors.shape[1])
+                ann_params = _write_dense(vectors, ann, hnsw or HnswParams(), tmp)
+            _write_ids(tmp / IDS, catalogue.ids)
+            seconds = time.perf_counter() - start
+            manifest = make_manifest(catalogue, enc_spec, fingerprint, dim, ann, ann_params,
+                                     embedded, seconds)
+            write_json(tmp / MANIFEST, manifest)
+            _swap_into_place(tmp, out)
+        finally:
+            shutil.rmtree(tmp, ignore_errors=True)
+    return info_from_manifest(out, manifest)
+
+
+def _embed(catalogue: Catalogue, encoder, cache_root: Path, batch_size: int,
+           quiet: bool) -> tuple[np.ndarray, int]:
+    """Vectors in catalogue order, embedding only texts the cache lacks.
+
+    Missing texts are embedded in a fixed order (length, then hash) and committed per
+    chunk, so a resumed build embeds exactly the chunks an uninterrupted one would have,
+    in the same batches, and produces the same bits.
+
+    Memory: vectors go straight into one preallocated matrix (cached ones fetched a
+    slice at a time) and texts are rendered again when their chunk is embedded rather
+    than all kept, so a build holds little more than the vectors themselves.
+    """
+    items, template = catalogue.items, catalogue.template
+    first: dict[str, int] = {}        # text key -> first item with that text
+    repeats: dict[str, list[int]] = {}  # text key -> later items with the same text
+    length = np.empty(len(items), dtype=np.int64)
+    for i, item in enumerate(items):
+        text = template.render(item)
+        key = text_key(text)
+        length[i] = len(text)
+        if key in first:
+            repeats.setdefault(key, []).append(i)
+        else:
+            first[key] = i
+    store = _RowStore(len(items), first, repeats, cache_root)
+    with EmbeddingCache(cache_root, encoder.fingerprint) as cache:
+        unique = list(first)
+        found: set[str] = set()
+        for s in range(0, len(unique), CACHE_SLICE):
+            got = cache.get(unique[s:s + CACHE_SLICE])
+            store.fill(got.keys(), got.values())
+            found.update(got)
+        todo = sorted((k for k in unique if k not in found),
+                      key=lambda k: (int(length[first[k]]), k))
+        del unique, found
+        with progress(len(todo), "embedding", quiet, unit="text") as bar:
+            for s in range(0, len(todo), EMBED_CHUNK):
+                chunk = todo[s:s + EMBED_CHUNK]
+                texts = [template.render(items[first[k]]) for k in chunk]
+                vectors = encoder.encode_documents(texts, batch_size)
+                cache.put(chunk, vectors)
+                store.fill(chunk, vectors)
+                bar.update(len(chunk))
+    embedded = sum(1 + len(repeats.get(k, ())) for k in todo)
+    return store.matrix, embedded
+
+
+class _RowStore:
+    """The vector matrix of a build, filled by text key; every vector must have one size."""
+
+    def __init__(self, n: int, first: Mapping[str, int], repeats: Mapping[str, list[int]],
+                 cache_root: Path) -> None:
+        self._n, self._first, self._repeats = n, first, repeats
+        self._cache_root = cache_root
+        self._matrix: np.ndarray | None = None
+
+    def fill(self, keys: Iterable[str], vectors: Iterable[np.ndarray]) -> None:
+        for k, v in zip(keys, vectors):
+            if self._matrix is None:
+                self._matrix = np.empty((self._n, v.shape[0]), dtype=np.float32)
+            if v.shape[0] != self._matrix.shape[1]:
+                raise TrawlError(f"embedding cache {self._cache_root} holds vectors of sizes "
+                                 f"{sorted({v.shape[0], self._matrix.shape[1]})} for one "
+                                 "encoder; delete the cache file and rebuild")
+            self._matrix[self._first[k]] = v
+            for row in self._repeats.get(k, ()):
+                self._matrix[row] = v
+
+    @property
+    def matrix(self) -> np.ndarray:
+        assert self._matrix is not None  # a catalogue has at least one item
+        return self._matrix
+
+def _write_dense(vectors: np.ndarray, ann: str, hnsw: HnswParams, folder: Path) -> dict:
+    with atomic_write(folder / VECTORS, "wb") as fh:
+        np.save(fh, vectors, allow_pickle=False)
+    if ann == "exact":
+        return {"metric": "inner_product"}
+    import faiss
+
+    index = faiss.IndexHNSWFlat(vectors.shape[1], hnsw.m, faiss.METRIC_INNER_PRODUCT)
+    index.hnsw.efConstruction = hnsw.ef_construction
+    threads = faiss.omp_get_max_threads()
+    faiss.omp_set_num_threads(1)  # parallel insertion links the graph in a racy order
+    try:
+        index.add(vectors)
+    finally:
+        faiss.omp_set_num_threads(threads)
+    faiss.write_index(index, str(folder / HNSW_FILE))
+    return {"metric": "inner_product", "m": hnsw.m, "ef_construction": hnsw.ef_construction,
+            "ef_search": hnsw.ef_search}
+
+
+def _write_lexical(catalogue: Catalogue, spec: EncoderSpec, folder: Path) -> tuple[str, int, int]:
+    from ..retrievers.lexical import TOKENISER, LexicalIndex
+
+    LexicalIndex.build(catalogue.texts(), spec).save(folder / LEXICAL_DIR)
+    recipe = [spec.as_dict(), TOKENISER, package_version("bm25s")]
+    fingerprint = hashlib.sha256(json.dumps(recipe, sort_keys=True).encode()).hexdigest()[:16]
+    return fingerprint, 0, len(catalogue)
+
+
+def _write_ids(path: Path, ids: list[str]) -> None:
+    with atomic_write(path) as fh:
+        fh.write("".join(f"{i}\n" for i in ids))
+
+
+# --- replacing the folder safely ----------------------------------------------------------------
+
+def _refuse_foreign(out: Path) -> None:
+    """Never replace something that is not an index (a typo in -o must not eat a folder)."""
+    if out.exists() and not out.is_dir():
+        raise UsageError(f"-o {out} is a file; give a folder for the index")
+    if out.is_dir() and not (out / MANIFEST).is_file() and any(out.iterdir()):
+        raise UsageError(f"-o {out} exists and is not a trawl index (no {MANIFEST}); "
+                         "choose a new or empty folder")
+
+
+@contextlib.contextmanager
+def _build_lock(out: Path) -> Iterator[None]:
+    """Exclusive lock on a file beside the output folder; a second builder fails fast."""
+    out.parent.mkdir(parents=True, exist_ok=True)
+    lock_path = out.parent / f".{out.name}.lock"
+    fd = os.open(lock_path, os.O_RDWR | os.O_CREAT, 0o644)
+    try:
+        try:
+            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except BlockingIOError:
+            holder = os.pread(fd, 32, 0).decode(errors="replace").strip() or "unknown"
+            raise TrawlError(f"index folder {out} is in use by pid {holder} (another build is "
+                             "writing it); wait for it to finish or choose another -o") from None
+        os.ftruncate(fd, 0)
+        os.pwrite(fd, f"{os.getpid()}\n".encode(), 0)
+        yield
+    finally:
+        os.close(fd)  # closing releases the lock
+
+
+def _recover_leftovers(out: Path) -> None:
+    """Undo what a killed build left: put back a replaced index, drop half-built folders."""
+    for old in sorted(out.parent.glob(f".{out.name}.replaced-*")):
+        if not out.exists():
+            os.rename(old, out)
+        else:
+            shutil.rmtree(old, ignore_errors=True)
+    for tmp in out.parent.glob(f".{out.name}.building-*"):
+        shutil.rmtree(tmp, ignore_errors=True)
+
+
+def _swap_into_place(tmp: Path, out: Path) -> None:
+    _fsync_dir(tmp)
+    old = out.parent / f".{out.name}.replaced-{os.getpid()}"
+    if out.exists():
+        os.rename(out, old)
+    os.rename(tmp, out)
+    _fsync_dir(out.parent)
+    shutil.rmtree(old, ignore_errors=True)
+
+
+def _fsync_dir(folder: Path) -> None:
+    fd = os.open(folder, os.O_RDONLY)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)

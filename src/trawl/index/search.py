@@ -1,0 +1,201 @@
+"""Opening an index for search (refusing a stale catalogue or another encoder), searching
+it, and ``retrieve``: build-if-needed and search in one call.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from collections.abc import Mapping
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from ..catalogue import Catalogue
+from ..embedcache import default_cache_dir
+from ..errors import EncoderMismatchError, InputError, StaleIndexError, UsageError
+from ..progress import progress
+from ..ranking import id_ranks, top_k
+from ..retrievers.loading import EncoderLoader, default_loader
+from ..retrievers.spec import EncoderSpec, as_spec, parse_spec
+from ..runs import Run
+from .build import build_index
+from .manifest import HNSW_FILE, IDS, LEXICAL_DIR, VECTORS, IndexInfo, folder_bytes, \
+    info_from_manifest, read_manifest
+
+QUERY_BATCH = 64    # queries encoded together by Index.search
+
+
+REBUILD = "trawl index {cat} -e {spec} -o {out}"
+
+
+def open_index(out_dir: str | Path, catalogue: Catalogue | None = None,
+               spec: EncoderSpec | str | None = None, *,
+               loader: EncoderLoader | None = None) -> Index:
+    """Open an index for search, refusing a changed catalogue or a different encoder
+    (``spec``: parsed already, or a spec string parsed here)."""
+    folder = Path(out_dir)
+    manifest = read_manifest(folder)
+    built = parse_spec(manifest["encoder"]["spec"], check_paths=False)
+    if spec is not None:
+        wanted = as_spec(spec, check_paths=False)
+        if wanted != built:
+            raise EncoderMismatchError(
+                f"index {folder} was built with encoder {built}, not {wanted}; search it as "
+                f"{built}, or build one for {wanted}: "
+                + REBUILD.format(cat=manifest["catalogue"]["path"], spec=wanted, out=folder))
+    if catalogue is not None:
+        _refuse_stale(folder, manifest, catalogue, built)
+    return Index(folder, manifest, built, loader or default_loader())
+
+
+def _refuse_stale(folder: Path, manifest: Mapping[str, Any], catalogue: Catalogue,
+                  built: EncoderSpec) -> None:
+    """Raise when the catalogue or its template changed since the index was built."""
+    was = manifest["catalogue"]
+    fix = REBUILD.format(cat=catalogue.path, spec=built, out=folder)
+    if catalogue.fingerprint != was["fingerprint"]:
+        raise StaleIndexError(
+            f"index {folder} is stale: {catalogue.path} has changed since it was built "
+            f"(catalogue fingerprint {was['fingerprint']} -> {catalogue.fingerprint}, "
+            f"{was['items']} -> {len(catalogue)} items); update it with `{fix}` "
+            "(only changed items are re-embedded)")
+    if catalogue.template.pattern != was["template"]:
+        raise StaleIndexError(
+            f"index {folder} embeds items with template {was['template']!r}, not "
+            f"{catalogue.template.pattern!r}; rebuild it with `{fix} --template ...` or "
+            "use the template it was built with")
+
+
+class Index:
+    """A loaded index: answers batches of queries (``search``) or one at a time (``search_one``)."""
+
+    def __init__(self, folder: Path, manifest: dict[str, Any], spec: EncoderSpec,
+                 loader: EncoderLoader) -> None:
+        self.path = folder
+        self.manifest = manifest
+        self.spec = spec  # as parsed from the manifest
+        self._loader = loader
+        self.ids = (folder / IDS).read_text(encoding="utf-8").split("\n")[:-1]
+        if len(self.ids) != manifest["catalogue"]["items"]:
+            raise InputError(folder / IDS, f"holds {len(self.ids)} ids but the manifest says "
+                             f"{manifest['catalogue']['items']}; rebuild the index")
+        self._ranks = id_ranks(self.ids)
+        self._encoder = None
+        if self.spec.lexical:
+            from ..retrievers.lexical import LexicalIndex
+
+            self._lexical = LexicalIndex.load(folder / LEXICAL_DIR)
+        else:
+            self._faiss = self._load_faiss()
+
+    @property
+    def info(self) -> IndexInfo:
+        return info_from_manifest(self.path, self.manifest)
+
+    def __len__(self) -> int:
+        return len(self.ids)
+
+    @property
+    def bytes(self) -> int:
+        return folder_bytes(self.path)
+
+    def _load_faiss(self):
+        import faiss
+
+        search = self.manifest["search"]
+        if search["ann"] == "hnsw":
+            index = faiss.read_index(str(self.path / HNSW_FILE))
+            index.hnsw.efSearch = int(search["ef_search"])
+            return index
+        vectors = np.load(self.path / VECTORS, allow_pickle=False)
+        index = faiss.IndexFlatIP(vectors.shape[1])
+        index.add(np.ascontiguousarray(vectors, dtype=np.float32))
+        return index
+
+    def encoder(self):
+        """The query encoder, checked against the weights the index was built with."""
+        if self._encoder is None:
+            encoder = self._loader.encoder(self.spec)
+            built = self.manifest["encoder"]["fingerprint"]
+            if encoder.fingerprint != built:
+                raise EncoderMismatchError(
+                    f"the model files of encoder {self.spec} have changed since index "
+                    f"{self.path} was built (fingerprint {built} -> {encoder.fingerprint}); "
+                    f"rebuild it: trawl index {self.manifest['catalogue']['path']} "
+                    f"-e {self.spec} -o {self.path}")
+            self._encoder = encoder
+        return self._encoder
+
+    def check_k(self, k: int) -> None:
+        if k < 1:
+            raise UsageError(f"k={k} must be >= 1")
+        if k > len(self.ids):
+            raise UsageError(f"k={k} exceeds catalogue size {len(self.ids)}; lower -k")
+
+    def search(self, queries: Mapping[str, str], k: int = 100, quiet: bool = False,
+               name: str | None = None) -> Run:
+        """Top-``k`` items per query, in trec_eval order, as a Run named after the index."""
+        self.check_k(k)
+        qids = list(queries)
+        results: dict[str, tuple[tuple[str, float], ...]] = {}
+        with progress(len(qids), "searching", quiet, unit="query") as bar:
+            for s in range(0, len(qids), QUERY_BATCH):
+                chunk = qids[s:s + QUERY_BATCH]
+                for qid, ranked in zip(chunk, self._rank([queries[q] for q in chunk], k)):
+                    results[qid] = ranked
+                bar.update(len(chunk))
+        return Run(name or self.path.name, results)
+
+    def search_one(self, text: str, k: int = 100) -> tuple[tuple[str, float], ...]:
+        """One query, the way a search box asks: encode it and search."""
+        return self._rank([text], k)[0]
+
+    def _rank(self, texts: list[str], k: int) -> list[tuple[tuple[str, float], ...]]:
+        if self.spec.lexical:
+            scores = self._lexical.scores(texts)
+            picks = [(top_k(row, k, self._ranks), row) for row in scores]
+            return [self._pairs(p, row[p]) for p, row in picks]
+        vectors = self.encoder().encode_queries(texts, QUERY_BATCH)
+        n = len(self.ids)
+        depth = min(n, k + 1)  # one extra reveals a tie across the cut-off
+        scores, found = self._faiss.search(vectors, depth)
+        out = []
+        for q, (row, pos) in enumerate(zip(scores, found)):
+            if depth > k and row[k] == row[k - 1] and self.manifest["search"]["ann"] == "exact":
+                row, pos = self._faiss.search(vectors[q:q + 1], n)
+                row, pos = row[0], pos[0]
+            valid = pos >= 0
+            pick = top_k(row[valid], k, self._ranks, candidates=pos[valid])
+            order = {p: s for p, s in zip(pos[valid].tolist(), row[valid].tolist())}
+            out.append(tuple((self.ids[p], order[p]) for p in pick.tolist()))
+        return out
+
+    def _pairs(self, positions: np.ndarray, scores: np.ndarray) -> tuple[tuple[str, float], ...]:
+        return tuple((self.ids[p], s) for p, s in zip(positions.tolist(), scores.tolist()))
+
+def retrieve(catalogue: Catalogue, spec: EncoderSpec | str, queries: Mapping[str, str],
+             k: int = 100, cache_dir: str | Path | None = None, quiet: bool = True, *,
+             name: str | None = None, loader: EncoderLoader | None = None) -> Run:
+    """Search ``catalogue`` with encoder ``spec`` in one call, building an index if needed.
+
+    Indexes live under ``CACHE/indexes/`` keyed by catalogue, template and spec; vectors
+    come from the embedding cache and models stay loaded in ``loader`` (default: the
+    per-process one), so repeated calls cost only the search. ``k`` is capped at the
+    catalogue size. The run is named after the spec unless ``name`` is given.
+    """
+    enc_spec = as_spec(spec)
+    root = Path(cache_dir) if cache_dir is not None else default_cache_dir()
+    key = hashlib.sha256("\0".join([catalogue.fingerprint, catalogue.template.pattern,
+                                    str(enc_spec)]).encode()).hexdigest()[:16]
+    folder = root / "indexes" / key
+    loader = loader or default_loader()
+    try:
+        index = open_index(folder, catalogue, enc_spec, loader=loader)
+        if not enc_spec.lexical:
+            index.encoder()
+    except (InputError, StaleIndexError, EncoderMismatchError):
+        build_index(catalogue, enc_spec, folder, cache_dir=root, quiet=quiet, loader=loader)
+        index = open_index(folder, catalogue, enc_spec, loader=loader)
+    run_name = name or "_".join(str(enc_spec).split())
+    return index.search(queries, min(k, len(catalogue)), quiet=quiet, name=run_name)
