@@ -153,9 +153,7 @@ class Index:
 
     def _rank(self, texts: list[str], k: int) -> list[tuple[tuple[str, float], ...]]:
         if self.spec.lexical:
-            scores = self._lexical.scores(texts)
-            picks = [(top_k(row, k, self._ranks), row) for row in scores]
-            return [self._pairs(p, row[p]) for p, row in picks]
+            return [self._pairs(p, s) for p, s in self._lexical.matches(texts, k, self._ranks)]
         vectors = self.encoder().encode_queries(texts, QUERY_BATCH)
         n = len(self.ids)
         depth = min(n, k + 1)  # one extra reveals a tie across the cut-off
