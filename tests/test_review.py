@@ -15,7 +15,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from trawl.agreement import cohen_kappa, wilson_interval
+from trawl.stats import cohen_kappa, wilson_interval
 from trawl.catalogue import load_catalogue
 from trawl.errors import InputError, UsageError
 from trawl.judgments import read_qrels, write_qrels

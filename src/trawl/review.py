@@ -38,7 +38,7 @@ from typing import Any
 
 import numpy as np
 
-from .agreement import Proportion, cohen_kappa, wilson_interval
+from .stats import Proportion, cohen_kappa, wilson_interval
 from .catalogue import Catalogue, Item
 from .errors import InputError, UsageError
 from .files import atomic_write, read_text

@@ -1,7 +1,9 @@
-"""Paired significance for per-query scores: bootstrap, sign-flip randomisation, Holm.
+"""Plain-array statistics: paired significance for per-query scores (bootstrap, sign-flip
+randomisation, Holm, effect size), proportions (Wilson interval), rater agreement (Cohen's
+kappa) and rank correlation (Kendall's tau-b, Spearman's rho).
 
-Two systems scored on the same queries are compared through the per-query
-differences ``d = a - b``; every statistic here is about their mean. Kernels take a
+For significance, two systems scored on the same queries are compared through the
+per-query differences ``d = a - b``; every statistic there is about their mean. Kernels take a
 matrix of differences (queries x comparisons) so one set of resamples serves every
 comparison at once: a resample is a vector of counts (bootstrap) or signs
 (randomisation) and the resampled means of all comparisons are one matrix product.
@@ -11,9 +13,11 @@ second, and it means every comparison in a table is judged on the same resamples
 
 from __future__ import annotations
 
-from collections.abc import Iterator, Sequence
+import math
+from collections.abc import Hashable, Iterator, Sequence
 from dataclasses import dataclass
 from statistics import NormalDist
+from typing import Any
 
 import numpy as np
 
@@ -238,3 +242,147 @@ def effect_sizes(diffs: np.ndarray) -> list[float]:
     sd = diffs.std(axis=0, ddof=1)
     return [0.0 if (s == 0 and m == 0) else float("nan") if s == 0 else float(m / s)
             for m, s in zip(mean.tolist(), sd.tolist())]
+
+
+# --- proportions --------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Proportion:
+    """``successes`` out of ``n`` with a Wilson score interval; NaN bounds when n == 0."""
+
+    successes: int
+    n: int
+    low: float
+    high: float
+
+    @property
+    def value(self) -> float:
+        return self.successes / self.n if self.n else math.nan
+
+    def as_dict(self) -> dict[str, Any]:
+        return {"successes": self.successes, "n": self.n, "value": none_if_nan(self.value),
+                "low": none_if_nan(self.low), "high": none_if_nan(self.high)}
+
+
+def wilson_interval(successes: int, n: int, alpha: float = 0.05) -> Proportion:
+    """Wilson score interval for a binomial proportion.
+
+    Chosen over the normal (Wald) interval because review samples are small and the
+    proportions of interest (silver precision) sit near 1, where Wald collapses to zero width.
+    """
+    if not 0 < alpha < 1:
+        raise UsageError(f"alpha={alpha} must be between 0 and 1 (exclusive)")
+    if n < 0 or not 0 <= successes <= max(n, 0):
+        raise UsageError(f"successes={successes} must be between 0 and n={n}")
+    if n == 0:
+        return Proportion(0, 0, math.nan, math.nan)
+    z = NormalDist().inv_cdf(1 - alpha / 2)
+    p = successes / n
+    denom = 1 + z * z / n
+    centre = (p + z * z / (2 * n)) / denom
+    half = z * math.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / denom
+    return Proportion(successes, n, max(0.0, centre - half), min(1.0, centre + half))
+
+
+# --- Cohen's kappa ------------------------------------------------------------------------
+
+def cohen_kappa(a: Sequence[Hashable], b: Sequence[Hashable], weights: str | None = None,
+                labels: Sequence[Hashable] | None = None) -> float:
+    """Cohen's kappa between two raters' labels of the same items.
+
+    ``weights`` None counts only exact matches; "linear" or "quadratic" give partial
+    credit by distance between the labels' positions in ``labels`` (default: the sorted
+    labels seen). Pass the full grade scale as ``labels`` so distance equals grade
+    difference even when a grade was never used. NaN when chance agreement is total.
+    """
+    if len(a) != len(b):
+        raise UsageError(f"the two raters labelled different numbers of items "
+                         f"({len(a)} and {len(b)})")
+    if not a:
+        return math.nan
+    cats = list(labels) if labels is not None else sorted(set(a) | set(b))
+    index = {c: i for i, c in enumerate(cats)}
+    missing = [x for x in (*a, *b) if x not in index]
+    if missing:
+        raise UsageError(f"label {missing[0]!r} is not among the allowed labels {cats}")
+    k = len(cats)
+    observed = np.zeros((k, k))
+    np.add.at(observed, (np.array([index[x] for x in a]), np.array([index[x] for x in b])), 1)
+    expected = np.outer(observed.sum(axis=1), observed.sum(axis=0)) / observed.sum()
+    i, j = np.indices((k, k))
+    if weights is None:
+        w = (i != j).astype(float)
+    elif weights == "linear":
+        w = np.abs(i - j).astype(float)
+    elif weights == "quadratic":
+        w = ((i - j) ** 2).astype(float)
+    else:
+        raise UsageError(f"kappa weights {weights!r} is not one of: linear, quadratic "
+                         "(or none)")
+    chance = float((w * expected).sum())
+    if chance == 0:
+        return math.nan
+    return 1 - float((w * observed).sum()) / chance
+
+
+# --- rank correlation ---------------------------------------------------------------------
+
+def kendall_tau_b(x: Sequence[float], y: Sequence[float]) -> float:
+    """Kendall's tau-b (ties in either ranking reduce the denominator); NaN if either
+    sequence is constant. Meant for short sequences such as system rankings (all pairs)."""
+    return float(tau_b_rows(np.asarray(x, float)[None, :], np.asarray(y, float)[None, :])[0])
+
+
+def spearman_rho(x: Sequence[float], y: Sequence[float]) -> float:
+    """Spearman's rho: Pearson correlation of average ranks; NaN if either is constant."""
+    return float(rho_rows(np.asarray(x, float)[None, :], np.asarray(y, float)[None, :])[0])
+
+
+def tau_b_rows(x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """tau-b for each row pair of two (replicates x systems) arrays."""
+    _check_pair(x, y)
+    i, j = np.triu_indices(x.shape[1], k=1)
+    sx = np.sign(x[:, i] - x[:, j])
+    sy = np.sign(y[:, i] - y[:, j])
+    denom = np.sqrt(np.count_nonzero(sx, axis=1) * np.count_nonzero(sy, axis=1).astype(float))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(denom > 0, (sx * sy).sum(axis=1) / np.where(denom > 0, denom, 1),
+                        np.nan)
+
+
+def rho_rows(x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """Spearman's rho for each row pair of two (replicates x systems) arrays."""
+    _check_pair(x, y)
+    rx = average_ranks(x)
+    ry = average_ranks(y)
+    rx -= rx.mean(axis=1, keepdims=True)
+    ry -= ry.mean(axis=1, keepdims=True)
+    denom = np.sqrt((rx * rx).sum(axis=1) * (ry * ry).sum(axis=1))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(denom > 0, (rx * ry).sum(axis=1) / np.where(denom > 0, denom, 1),
+                        np.nan)
+
+
+def _check_pair(x: np.ndarray, y: np.ndarray) -> None:
+    if x.shape != y.shape:
+        raise UsageError(f"rank correlation needs two equally long sequences, got "
+                         f"{x.shape[1]} and {y.shape[1]} values")
+    if x.shape[1] < 2:
+        raise UsageError("rank correlation needs at least two values")
+
+
+def average_ranks(x: np.ndarray) -> np.ndarray:
+    """Ranks 1..n per row, ties sharing their average rank."""
+    order = np.argsort(x, axis=1, kind="stable")
+    xs = np.take_along_axis(x, order, axis=1)
+    ranks = np.empty_like(x, dtype=float)
+    for r in range(x.shape[0]):
+        _, first, counts = np.unique(xs[r], return_index=True, return_counts=True)
+        avg = np.repeat(first + (counts + 1) / 2, counts)
+        ranks[r, order[r]] = avg
+    return ranks
+
+
+def none_if_nan(x: float) -> float | None:
+    """``x``, or None when it is NaN (JSON has no NaN)."""
+    return None if math.isnan(x) else x

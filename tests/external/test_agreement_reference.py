@@ -12,7 +12,8 @@ from scipy import stats
 from sklearn.metrics import cohen_kappa_score
 from statsmodels.stats.proportion import proportion_confint
 
-from trawl.agreement import agree, cohen_kappa, kendall_tau_b, spearman_rho, wilson_interval
+from trawl.agreement import agree
+from trawl.stats import cohen_kappa, kendall_tau_b, spearman_rho, wilson_interval
 from trawl.metrics import per_query
 from trawl.runs import make_run
 
