@@ -1,4 +1,4 @@
-"""read_run's array-based reading of well-formed runs gives exactly what the
+"""read_run's columnar reading of plainly written runs gives exactly what the
 line-by-line reader gives: same Run (order, ties, name) and the same located errors."""
 
 from __future__ import annotations
@@ -9,19 +9,18 @@ import pytest
 
 from trawl import runs
 from trawl.errors import InputError
-from trawl.files import read_text
 
 
 def line_by_line(path):
     """read_run with the fast path switched off."""
-    saved = runs._read_well_formed_run
-    runs._read_well_formed_run = lambda *a: None
+    saved = runs._read_columns
+    runs._read_columns = lambda *a: None
     try:
         return runs.read_run(path)
     except InputError as exc:
         return str(exc)
     finally:
-        runs._read_well_formed_run = saved
+        runs._read_columns = saved
 
 
 def as_read(path):
@@ -66,7 +65,7 @@ def test_same_result_as_line_by_line_on_random_files(tmp_path):
             continue
         assert got == want and list(got.results) == list(want.results)
         assert got.name == want.name
-        fast_used += runs._read_well_formed_run(path, read_text(path, "run"), None) is not None
+        fast_used += runs._read_columns(path, None) is not None
     assert fast_used > 150  # most well-formed cases went the fast way
 
 
@@ -74,7 +73,7 @@ def test_ties_and_unsorted_scores_come_out_in_trec_eval_order(tmp_path):
     path = tmp_path / "t.run"
     path.write_text("q1 Q0 a 1 1.0 t\nq1 Q0 c 2 1.0 t\nq1 Q0 b 3 1.0 t\nq1 Q0 z 4 0.5 t\n"
                     "q2 Q0 x 1 0.1 t\nq2 Q0 y 2 0.9 t\n")
-    fast = runs._read_well_formed_run(path, read_text(path, "run"), None)
+    fast = runs._read_columns(path, None)
     assert fast is not None
     assert fast.results == {"q1": (("c", 1.0), ("b", 1.0), ("a", 1.0), ("z", 0.5)),
                             "q2": (("y", 0.9), ("x", 0.1))}
@@ -82,13 +81,28 @@ def test_ties_and_unsorted_scores_come_out_in_trec_eval_order(tmp_path):
 
 
 @pytest.mark.parametrize("text", [
-    "q1 Q0 a 1 1.0 t\nq2 Q0 a 1 1.0 t\nq1 Q0 b 2 0.5 t\n",  # query lines not contiguous
     "q1 Q0 a 1 1.0 t\nq1 Q0 a 2 0.5 t\n",  # duplicate item
     "q1 Q0 a +1 1.0 t\n",  # signed rank
-    "q1 Q0 caf\u00e9 1 1.0 t\n",  # non-ASCII
+    "q1 Q0 caf\u00a0e 1 1.0 t\n",  # a no-break space, which str.split() splits on
+    "\ufeffq1 Q0 a 1 1.0 t\n",  # byte-order mark
+    "q1 Q0 a 1 nan t\n",  # NaN score
 ])
 def test_unusual_files_take_the_careful_path(tmp_path, text):
     path = tmp_path / "u.run"
     path.write_text(text)
-    assert runs._read_well_formed_run(path, read_text(path, "run"), None) is None
+    assert runs._read_columns(path, None) is None
     assert as_read(path) == line_by_line(path)
+
+
+@pytest.mark.parametrize("text", [
+    "q1  Q0 a 1 1.0 t\n q1 Q0 b 2 0.5 t \n\t\n",  # doubled, leading and trailing spaces
+    "q1 Q0 a 1 1.0 t\nq1\tQ0 b 2 0.5\tt",  # tab and space mixed, no final newline
+    "q2 Q0 a 1 1.0 t\nq1 Q0 a 1 1.0 t\nq2 Q0 b 2 0.5 t\n",  # query lines not contiguous
+    "q1 Q0 caf\u00e9 1 1.0 t\n",  # non-ASCII item id
+])
+def test_whitespace_and_order_variants_are_read_as_columns(tmp_path, text):
+    path = tmp_path / "v.run"
+    path.write_text(text)
+    fast = runs._read_columns(path, None)
+    assert fast is not None
+    assert fast == line_by_line(path) and list(fast.results) == list(line_by_line(path).results)

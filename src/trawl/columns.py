@@ -1,0 +1,313 @@
+"""TREC runs read straight into columns, so memory follows the file's size in bytes.
+
+A run of 100,000 queries x 100 results is 10 million lines; held as Python tuples of
+(item id, score) it takes gigabytes, while the same data as one int32 item code and one
+float64 score per line, plus each distinct item id once, takes about 120 MB. pyarrow's
+CSV parser reads such a file in a few seconds on several threads without ever making a
+Python object per line.
+
+The vectorised reader takes only files whose fields the line-by-line reader in
+``runs.read_run`` would split the same way (one space or one tab between fields, no
+other whitespace, no stray control characters) and whose values it would accept. For
+anything else, or any value it cannot vouch for (a NaN score, a signed rank, a
+duplicate item), it returns None and the line-by-line reader produces the result or the
+located error; so the two never disagree.
+
+The columns travel inside an ordinary ``Run`` as a read-only mapping
+(``RankedColumns``): every consumer keeps asking ``run.results[qid]`` for tuples, and
+scoring (``metrics``) reads the columns directly.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Iterator, Mapping, Sequence
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+SCAN_BLOCK = 1 << 24   # bytes of the file checked and parsed at a time
+PARSE_BLOCK = 1 << 21  # bytes per pyarrow parse task (blocks are parsed on several threads)
+GAIN_ROWS = 1 << 20    # run lines looked up at a time when scoring
+# Lead bytes of UTF-8 sequences that may be Unicode whitespace (U+0085, U+00A0, U+1680,
+# U+2000-U+200A, U+2028/9, U+202F, U+205F, U+3000), which str.split() would split on.
+_MAYBE_SPACE = (b"\xc2\x85", b"\xc2\xa0", b"\xe1\x9a\x80", b"\xe2\x80", b"\xe2\x81\x9f",
+                b"\xe3\x80\x80")
+_RUN_FIELDS = ("qid", "q0", "item", "rank", "score", "tag")
+_SPACES = re.compile(rb" {2,}")
+
+
+class RankedColumns(Mapping[str, tuple[tuple[str, float], ...]]):
+    """A run's results as columns: ``self[qid]`` gives (item id, score) tuples, best first.
+
+    Lines are grouped by query (queries in file order of first appearance) and within a
+    query in trec_eval order; ``offsets[i]:offsets[i + 1]`` are query i's lines,
+    ``codes`` index ``vocabulary`` (each distinct item id once) and ``scores`` hold the
+    scores.
+    """
+
+    def __init__(self, qids: list[str], offsets: np.ndarray, codes: np.ndarray,
+                 scores: np.ndarray, vocabulary: Any) -> None:
+        self.qids = qids
+        self.offsets = offsets
+        self.codes = codes
+        self.scores = scores
+        self.vocabulary = vocabulary  # pyarrow StringArray
+        self._position = {q: i for i, q in enumerate(qids)}
+
+    def __getitem__(self, qid: str) -> tuple[tuple[str, float], ...]:
+        i = self._position[qid]
+        a, b = int(self.offsets[i]), int(self.offsets[i + 1])
+        items = self.vocabulary.take(self.codes[a:b]).to_pylist()
+        return tuple(zip(items, self.scores[a:b].tolist()))
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self.qids)
+
+    def __len__(self) -> int:
+        return len(self.qids)
+
+    def __contains__(self, qid: object) -> bool:
+        return qid in self._position
+
+    def position(self, qid: str) -> int:
+        """Row of ``qid`` in ``qids``, -1 when the run has no results for it."""
+        return self._position.get(qid, -1)
+
+    def distinct_items(self) -> set[str]:
+        return set(self.vocabulary.to_pylist())
+
+    @property
+    def nbytes(self) -> int:
+        return (self.offsets.nbytes + self.codes.nbytes + self.scores.nbytes
+                + self.vocabulary.nbytes)
+
+
+# --- reading -----------------------------------------------------------------------------------
+
+def read_run_columns(path: str | Path) -> tuple[str, RankedColumns] | None:
+    """(first tag, columns) of a run, or None to read it line by line."""
+    import pyarrow as pa
+
+    tables, tag = [], None
+    try:
+        for block in _blocks(Path(path)):
+            table = _parse(block)
+            if table is None:
+                return None
+            if tag is None and table.num_rows:
+                tag = block.lstrip(b"\n").split(b"\n", 1)[0].split(b" ")[5].decode("utf-8")
+            tables.append(table)
+    except OSError:
+        return None  # the careful reader names what is wrong with the file
+    if tag is None:
+        return None
+    table = pa.concat_tables(tables).unify_dictionaries()
+    del tables
+    scores = _numpy(table["score"])
+    if np.isnan(scores).any():
+        return None
+    queries, qids = _codes(table["qid"])
+    codes, vocabulary = _codes(table["item"])
+    del table
+    columns = _rank_ordered(qids, queries, codes, scores, vocabulary)
+    return None if columns is None else (tag, columns)
+
+
+def _blocks(path: Path) -> Iterator[bytes | None]:
+    """The file in blocks of whole lines, fields joined by single spaces; None for a
+    block holding anything str.split() might treat otherwise than a plain parser."""
+    with path.open("rb") as fh:
+        rest = b""
+        first = True
+        while True:
+            read = fh.read(SCAN_BLOCK)
+            data = rest + read
+            if first and data.startswith(b"\xef\xbb\xbf"):
+                yield None  # a byte-order mark
+                return
+            first = False
+            cut = data.rfind(b"\n") + 1 if read else len(data)
+            block, rest = data[:cut], data[cut:]
+            if not block:
+                if read:
+                    continue
+                return
+            yield _plain(block)
+            if not read:
+                return
+
+
+def _plain(block: bytes) -> bytes | None:
+    arr = np.frombuffer(block, dtype=np.uint8)
+    if np.count_nonzero(arr < 32) != block.count(b"\n") + block.count(b"\t") \
+            or b"\x7f" in block:
+        return None  # NUL, carriage return and other control characters
+    if arr.max(initial=0) >= 0x80 and any(s in block for s in _MAYBE_SPACE):
+        return None
+    if b"\t" in block:
+        block = block.replace(b"\t", b" ")
+    if b"  " in block or b" \n" in block or b"\n " in block or block[:1] == b" " \
+            or block[-1:] == b" ":
+        block = _SPACES.sub(b" ", block).replace(b" \n", b"\n").replace(b"\n ", b"\n")
+        block = block.strip(b" ")
+    return block
+
+
+def _parse(block: bytes | None) -> Any:
+    """pyarrow table (qid, item, score) of a plain block, None when a value is not
+    what the careful reader would accept as is."""
+    if block is None:
+        return None
+    import pyarrow as pa
+    from pyarrow import csv
+
+    text = pa.dictionary(pa.int32(), pa.string())
+    try:
+        table = csv.read_csv(
+            pa.BufferReader(block),
+            csv.ReadOptions(column_names=list(_RUN_FIELDS), block_size=PARSE_BLOCK),
+            csv.ParseOptions(delimiter=" ", quote_char=False, double_quote=False,
+                             escape_char=False, ignore_empty_lines=True),
+            csv.ConvertOptions(column_types={"qid": text, "item": text, "rank": pa.int64(),
+                                             "score": pa.float64()},
+                               include_columns=["qid", "item", "rank", "score"],
+                               null_values=[], strings_can_be_null=False, check_utf8=True))
+    except pa.ArrowInvalid:
+        return None  # a field count, number or encoding the careful reader will locate
+    return table.drop_columns(["rank"])  # parsed as whole numbers is all that is needed
+
+
+def _numpy(column: Any) -> np.ndarray:
+    chunks = [c.to_numpy(zero_copy_only=False) for c in column.chunks]
+    return chunks[0] if len(chunks) == 1 else np.concatenate(chunks)
+
+
+def _codes(column: Any) -> tuple[np.ndarray, Any]:
+    """int32 codes and the dictionary of a unified dictionary column."""
+    chunks = column.chunks
+    codes = [c.indices.to_numpy(zero_copy_only=False) for c in chunks]
+    return (codes[0] if len(codes) == 1 else np.concatenate(codes)), chunks[0].dictionary
+
+
+def _rank_ordered(qid_values: Any, queries: np.ndarray, codes: np.ndarray,
+                  scores: np.ndarray, vocabulary: Any) -> RankedColumns | None:
+    """Group lines by query (first-appearance order) and put each query in trec_eval
+    order; None when a query lists an item twice."""
+    n = queries.size
+    starts = np.flatnonzero(np.concatenate(([True], queries[1:] != queries[:-1])))
+    present, first = np.unique(queries[starts], return_index=True)
+    appearance = np.argsort(starts[first], kind="stable")  # codes in order of first line
+    if not np.array_equal(present[appearance], np.arange(present.size)):
+        order_of = np.empty(present.size, dtype=np.int32)
+        order_of[present[appearance]] = np.arange(present.size, dtype=np.int32)
+        queries = order_of[queries]
+    if starts.size != present.size:  # a query's lines are not contiguous
+        regroup = np.argsort(queries, kind="stable")
+        queries, codes, scores = queries[regroup], codes[regroup], scores[regroup]
+    import pyarrow as pa
+
+    qids = qid_values.take(pa.array(present[appearance])).to_pylist()
+    offsets = np.searchsorted(queries, np.arange(len(qids) + 1)).astype(np.int64)
+    item_rank = _sort_positions(vocabulary)
+    codes, scores = _put_in_rank_order(queries, codes, scores, item_rank)
+    keys = queries.astype(np.int64) * len(vocabulary) + codes
+    keys.sort()
+    if n > 1 and (keys[1:] == keys[:-1]).any():
+        return None
+    del keys
+    return RankedColumns(qids, offsets, codes, scores, vocabulary)
+
+
+def _sort_positions(vocabulary: Any) -> np.ndarray:
+    """Position of each item id in sorted order (UTF-8 byte order = str order)."""
+    import pyarrow.compute as pc
+
+    order = pc.array_sort_indices(vocabulary).to_numpy()
+    out = np.empty(order.size, dtype=np.int32)
+    out[order] = np.arange(order.size, dtype=np.int32)
+    return out
+
+
+def _put_in_rank_order(queries: np.ndarray, codes: np.ndarray, scores: np.ndarray,
+                       item_rank: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Sort the queries whose lines are not already score desc, item id desc.
+
+    Runs are nearly always written in that order, so only the few queries with rising
+    scores or ties out of item order are sorted.
+    """
+    same = queries[1:] == queries[:-1]
+    rank = item_rank[codes]
+    in_order = (scores[:-1] > scores[1:]) | ((scores[:-1] == scores[1:]) & (rank[:-1] > rank[1:]))
+    bad = np.flatnonzero(same & ~in_order)
+    if bad.size == 0:
+        return codes, scores
+    codes, scores = np.array(codes), np.array(scores)  # writable copies of arrow memory
+    wrong = np.zeros(int(queries[-1]) + 1, dtype=bool)
+    wrong[queries[bad]] = True
+    rows = np.flatnonzero(wrong[queries])
+    order = np.lexsort((-rank[rows], -scores[rows], queries[rows]))
+    codes[rows] = codes[rows[order]]
+    scores[rows] = scores[rows[order]]
+    return codes, scores
+
+
+# --- scoring -------------------------------------------------------------------------------------
+
+def judged_gains(qrels: Mapping[str, Mapping[str, int]], qids: Sequence[str],
+                 run: RankedColumns, width: int) -> np.ndarray:
+    """Gains matrix (qrels queries x ``width`` ranks): the grade of each ranked item,
+    0 when unjudged, negative or past the end of the ranking."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    gains = np.zeros((len(qids), max(width, 1)), dtype=np.float64)
+    where = np.fromiter((run.position(q) for q in qids), dtype=np.int64, count=len(qids))
+    judged_q, judged_items, grades = [], [], []
+    for i, q in enumerate(qids):
+        if where[i] >= 0:
+            for item, g in qrels[q].items():
+                if g > 0:
+                    judged_q.append(where[i])
+                    judged_items.append(item)
+                    grades.append(g)
+    if not grades:
+        return gains
+    nv = len(run.vocabulary)
+    code = pc.index_in(pa.array(judged_items, pa.string()), value_set=run.vocabulary)
+    code = pc.fill_null(code, -1).to_numpy().astype(np.int64)
+    known = code >= 0
+    keys = np.asarray(judged_q, dtype=np.int64)[known] * nv + code[known]
+    order = np.argsort(keys)
+    keys, values = keys[order], np.asarray(grades, dtype=np.float64)[known][order]
+    judged_item = np.zeros(nv, dtype=bool)
+    judged_item[code[known]] = True
+    if keys.size == 0:
+        return gains
+    rows = np.flatnonzero(where >= 0)
+    lengths = np.minimum(np.diff(run.offsets)[where[rows]], width)
+    block = np.concatenate(([0], np.flatnonzero(np.diff(np.cumsum(lengths) // GAIN_ROWS)) + 1,
+                            [rows.size]))
+    for a, b in zip(block[:-1], block[1:]):
+        _fill(gains, run, rows[a:b], where[rows[a:b]], lengths[a:b], judged_item, keys, values)
+    return gains
+
+
+def _fill(gains: np.ndarray, run: RankedColumns, rows: np.ndarray, runq: np.ndarray,
+          lengths: np.ndarray, judged_item: np.ndarray, keys: np.ndarray,
+          values: np.ndarray) -> None:
+    """Gains of the top ``lengths`` lines of run queries ``runq`` into ``gains[rows]``."""
+    total = int(lengths.sum())
+    if total == 0:
+        return
+    before = np.cumsum(lengths) - lengths
+    rank = np.arange(total, dtype=np.int64) - np.repeat(before, lengths)
+    line = np.repeat(run.offsets[runq], lengths) + rank
+    item = run.codes[line]
+    hit = np.flatnonzero(judged_item[item])
+    key = np.repeat(runq, lengths)[hit] * len(run.vocabulary) + item[hit]
+    at = np.minimum(np.searchsorted(keys, key), keys.size - 1)
+    found = keys[at] == key
+    target = np.repeat(rows, lengths)[hit[found]]
+    gains[target, rank[hit[found]]] = values[at[found]]
