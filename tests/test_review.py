@@ -186,9 +186,8 @@ def test_sample_is_stratified_by_type_and_seeded(world, tmp_path):
             queries[f"{t}{k}"] = f"query {t} {k}"
     out = tmp_path / "s.csv"
     summary = export_sheet(qrels, queries, cat, out, sample=16, seed=1)
-    # one per type first, then the remaining 13 in proportion to 39 / 19 / 3 by largest
-    # remainder: 8.31 / 4.05 / 0.64 -> 8 / 4 / 1 -> totals 9 / 5 / 2
-    assert dict(summary.queries_per_type) == {"article": 9, "faq": 5, "form": 2}
+    # in proportion to 40 / 20 / 4 of 64 queries: 16 * 40/64 = 10, 16 * 20/64 = 5, 16 * 4/64 = 1
+    assert dict(summary.queries_per_type) == {"article": 10, "faq": 5, "form": 1}
     first = out.read_bytes()
     export_sheet(qrels, queries, cat, out, sample=16, seed=1)
     assert out.read_bytes() == first

@@ -38,6 +38,7 @@ from typing import Any
 
 import numpy as np
 
+from .sampling import stratified_sample
 from .stats import Proportion, cohen_kappa, wilson_interval
 from .catalogue import Catalogue, Item
 from .errors import InputError, UsageError
@@ -190,9 +191,8 @@ def export_sheet(qrels: Qrels, queries: Mapping[str, str], catalogue: Catalogue,
 
     qids = _query_universe(qrels, queries, catalogue, runs, pairs)
     qtype = {q: _query_type(qrels.get(q, {}), catalogue) for q in qids}
+    qids = stratified_sample(qids, qtype.__getitem__, sample, seed)
     rng = np.random.default_rng(seed)
-    if sample is not None:
-        qids = _stratified_sample(qids, qtype, sample, rng)
     shared, dealt = _split_for_reviewers(qids, reviewers, overlap or 0.0, rng)
 
     scrubbed = dict.fromkeys(KINDS, 0)
@@ -287,32 +287,6 @@ def _query_type(judged: Mapping[str, int], catalogue: Catalogue) -> str:
         return "-"
     top = min(best, key=lambda i: (-judged[i], i))
     return catalogue.by_id[top].type
-
-
-def _stratified_sample(qids: list[str], qtype: Mapping[str, str], n: int,
-                       rng: np.random.Generator) -> list[str]:
-    """``n`` queries, each destination type in proportion to its share (largest
-    remainder), at least one per type when ``n`` allows; original order kept."""
-    if n >= len(qids):
-        return qids
-    groups: dict[str, list[str]] = {}
-    for q in qids:
-        groups.setdefault(qtype[q], []).append(q)
-    types = sorted(groups)
-    base = {t: 1 if n >= len(types) else 0 for t in types}
-    room = {t: len(groups[t]) - base[t] for t in types}
-    rest = n - sum(base.values())
-    total = sum(room.values())
-    exact = {t: rest * room[t] / total if total else 0.0 for t in types}
-    quota = {t: base[t] + math.floor(exact[t]) for t in types}
-    left = n - sum(quota.values())
-    for t in sorted(types, key=lambda t: (-(exact[t] - math.floor(exact[t])), t))[:left]:
-        quota[t] += 1
-    chosen: set[str] = set()
-    for t in types:
-        picks = rng.permutation(len(groups[t]))[: quota[t]]
-        chosen.update(groups[t][i] for i in picks)
-    return [q for q in qids if q in chosen]
 
 
 def _split_for_reviewers(qids: list[str], reviewers: int, overlap: float,
