@@ -47,7 +47,9 @@ def test_rows_by_hand(comparison):
     assert rows["screen"].p_randomisation == pytest.approx(0.5)
     # one query: both sign patterns are as extreme as the observed one
     assert rows["article"].p_randomisation == 1.0 and rows["article"].diff == -1.0
-    assert rows["article"].p_bootstrap == 1.0
+    # fewer than stats.MIN_QUERIES queries: no bootstrap interval or p-value, and why
+    assert np.isnan(rows["article"].p_bootstrap) and np.isnan(rows["article"].low)
+    assert rows["article"].note == "too few queries"
     # effect size: mean 1/3 over the sample sd sqrt(2/3) of the differences
     assert all_.effect == pytest.approx((1 / 3) / np.sqrt(2 / 3))
 
@@ -59,12 +61,16 @@ def test_holm_runs_over_every_row_shown(comparison):
 
 
 def test_few_queries_per_type_are_warned_about(comparison):
-    few = [w for w in comparison.warnings if w.startswith("type ")]
+    few = [w for w in comparison.warnings if w.startswith(("type ", "all "))]
+    tail = ("its differences and p-values say little; fewer than 10: no bootstrap interval "
+            "or bootstrap p-value (too few queries), and the exact randomisation p-value "
+            "cannot fall below")
     assert few == [
-        "type 'article': only 1 query (fewer than 20); its differences and p-values say little",
-        "type 'faq': only 1 query (fewer than 20); its differences and p-values say little",
-        "type 'form': only 1 query (fewer than 20); its differences and p-values say little",
-        "type 'screen': only 3 queries (fewer than 20); its differences and p-values say little",
+        f"all queries: only 6 queries (fewer than 20); {tail} 0.0312",
+        f"type 'article': only 1 query (fewer than 20); {tail} 1",
+        f"type 'faq': only 1 query (fewer than 20); {tail} 1",
+        f"type 'form': only 1 query (fewer than 20); {tail} 1",
+        f"type 'screen': only 3 queries (fewer than 20); {tail} 0.25",
     ]
 
 
@@ -86,9 +92,9 @@ def test_identical_runs_differ_by_nothing(files):
     dense = read_run(files["dense"])
     twin = make_run("twin", dense.results)
     comp = compare_runs(qrels, [dense, twin], ["ndcg@10", "mrr@10"], resamples=200)
-    for r in comp.rows:
-        assert (r.diff, r.low, r.high, r.p_bootstrap, r.p_randomisation, r.effect) == (
-            0.0, 0.0, 0.0, 1.0, 1.0, 0.0)
+    for r in comp.rows:  # 6 queries: too few for a bootstrap (stats.MIN_QUERIES)
+        assert (r.diff, r.p_randomisation, r.effect, r.note) == (0.0, 1.0, 0.0,
+                                                                 "too few queries")
 
 
 def test_as_dict_rows_carry_every_field(comparison):

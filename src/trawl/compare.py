@@ -27,9 +27,11 @@ from .metrics import DEFAULT_METRICS, Metric
 from .progress import progress
 from .runs import Run
 from .scores import TYPE_RULE, ScoreReport, count, score_runs
-from .stats import bootstrap_many, effect_sizes, holm, randomisation_many
+from .stats import (Estimate, bootstrap_many, effect_sizes, few_queries_note, holm,
+                    randomisation_many, too_few)
 
 FEW_QUERIES = 20  # common practice, no source: below this a per-type test says little
+nan = float("nan")
 
 
 @dataclass(frozen=True)
@@ -50,6 +52,7 @@ class ComparisonRow:
     p_randomisation: float
     p_corrected: float
     effect: float
+    note: str | None = None  # stats.TOO_FEW when the interval and p_bootstrap are not given
 
     def as_dict(self) -> dict[str, Any]:
         return {k: (None if isinstance(v, float) and np.isnan(v) else v)
@@ -133,7 +136,10 @@ def compare_scores(report: ScoreReport, resamples: int = 10000, seed: int = 0,
         for group, rows in groups.items():
             sub = values[:, rows, :]
             diffs = np.concatenate([sub[r] - sub[0] for r in others], axis=1)
-            estimates = bootstrap_many(diffs, resamples, seed, method, alpha)
+            note = too_few(len(rows))
+            estimates = (bootstrap_many(diffs, resamples, seed, method, alpha) if note is None
+                         else [Estimate(float(m), nan, nan, len(rows), nan)
+                               for m in diffs.mean(axis=0)])
             p_rand = randomisation_many(diffs, resamples, seed)
             effects = effect_sizes(diffs)
             means = sub.mean(axis=1)
@@ -144,11 +150,14 @@ def compare_scores(report: ScoreReport, resamples: int = 10000, seed: int = 0,
                                     type=group, n=len(rows), run_mean=float(means[r, m]),
                                     baseline_mean=float(means[0, m]), diff=est.mean,
                                     low=est.low, high=est.high, p_bootstrap=est.p_value,
-                                    p_randomisation=float(p_rand[j]), effect=effects[j]))
-            if group is not None and len(rows) < FEW_QUERIES:
-                warnings.append(f"type {group!r}: only {count(len(rows), 'query', 'queries')} "
+                                    p_randomisation=float(p_rand[j]), effect=effects[j],
+                                    note=note))
+            if len(rows) < FEW_QUERIES:
+                where = "all queries" if group is None else f"type {group!r}"
+                warnings.append(f"{where}: only {count(len(rows), 'query', 'queries')} "
                                 f"(fewer than {FEW_QUERIES}); its differences and p-values "
-                                "say little")
+                                "say little" + (f"; {few_queries_note(len(rows))}"
+                                                if note else ""))
             bar.update()
     corrected = holm([p["p_randomisation"] for p in pending])
     rows_out = tuple(ComparisonRow(p_corrected=float(c), **p) for p, c in zip(pending, corrected))
@@ -158,7 +167,7 @@ def compare_scores(report: ScoreReport, resamples: int = 10000, seed: int = 0,
 
 
 CSV_COLUMNS = ("run", "baseline", "metric", "type", "n", "run_mean", "baseline_mean", "diff",
-               "low", "high", "p_bootstrap", "p_randomisation", "p_corrected", "effect")
+               "low", "high", "p_bootstrap", "p_randomisation", "p_corrected", "effect", "note")
 
 
 def render_comparison(comp: Comparison, long: bool = False, max_warnings: int = 20) -> str:

@@ -142,7 +142,8 @@ class ScoreReport:
 
     ``values[r, q, m]`` is run r's score on qrels query q for metric m. ``types`` maps
     a query to its destination types (empty without a catalogue). ``intervals`` holds
-    bootstrap (low, high) bounds of every mean when they were asked for.
+    bootstrap (low, high) bounds of every mean when they were asked for; a group of
+    fewer than ``stats.MIN_QUERIES`` queries has none, and its rows say why (``note``).
     """
 
     metrics: tuple[str, ...]
@@ -165,15 +166,20 @@ class ScoreReport:
         return v.mean(axis=1) if v.shape[1] else np.full(v.shape[::2], np.nan)
 
     def score_rows(self) -> list[dict[str, Any]]:
-        """One row per run, metric and group: {run, metric, type, n, mean, low, high}."""
+        """One row per run, metric and group: {run, metric, type, n, mean, low, high,
+        note}; ``note`` says why an interval asked for is missing (else None)."""
+        from .stats import too_few
+
         out = []
         for group, rows in self.groups().items():
             means = self.means(rows)
+            note = too_few(len(rows)) if self.intervals is not None else None
             for r, run in enumerate(self.runs):
                 for m, metric in enumerate(self.metrics):
                     low, high = (self.intervals or {}).get((run, metric, group), (None, None))
                     out.append({"run": run, "metric": metric, "type": group, "n": len(rows),
-                                "mean": float(means[r, m]), "low": low, "high": high})
+                                "mean": float(means[r, m]), "low": low, "high": high,
+                                "note": note})
         return out
 
     def per_query_rows(self) -> list[dict[str, Any]]:
@@ -239,7 +245,8 @@ def score_runs(qrels: Qrels, runs: Sequence[Run] | Run,
     """Score every run on every qrels query; per-type means need the catalogue.
 
     With ``resamples > 0`` every mean also gets a percentile bootstrap interval at
-    level ``1 - alpha`` (the same resamples of queries for every run and metric).
+    level ``1 - alpha`` (the same resamples of queries for every run and metric),
+    except in groups of fewer than ``stats.MIN_QUERIES`` queries, which are warned about.
     """
     runs = [runs] if isinstance(runs, Run) else list(runs)
     if not runs:
@@ -258,17 +265,22 @@ def score_runs(qrels: Qrels, runs: Sequence[Run] | Run,
                          tuple(qrels), values, types, tuple(warnings))
     if resamples <= 0:
         return report
-    from .stats import bootstrap_intervals
+    from .stats import MIN_QUERIES, TOO_FEW, bootstrap_intervals
 
     intervals = {}
     for group, rows in report.groups().items():
+        if len(rows) < MIN_QUERIES:
+            where = "all queries" if group is None else f"type {group!r}"
+            warnings.append(f"{where}: only {count(len(rows), 'query', 'queries')} (fewer "
+                            f"than {MIN_QUERIES}): no bootstrap interval ({TOO_FEW})")
+            continue
         flat = values[:, rows, :].transpose(1, 0, 2).reshape(len(rows), -1)
         bounds = bootstrap_intervals(flat, resamples, seed, alpha)
         for j, (low, high) in enumerate(bounds):
             r, m = divmod(j, len(ms))
             intervals[(report.runs[r], report.metrics[m], group)] = (low, high)
     return ScoreReport(report.metrics, report.runs, report.qids, values, types,
-                       report.warnings, intervals)
+                       tuple(warnings), intervals)
 
 
 def render_scores(report: ScoreReport, max_warnings: int = 20) -> str:

@@ -26,6 +26,12 @@ from .errors import UsageError
 METHODS = ("percentile", "bca")
 CELLS_PER_CHUNK = 4_000_000  # resamples x queries held at once (32 MB of float64)
 EXACT_SIGNS_UP_TO = 16  # queries; more would make the 2^n sign patterns too big to hold
+# Common practice, no source: below this many queries a bootstrap has too few distinct
+# resamples (C(2n - 1, n): 3 at n = 2, 126 at n = 5) to place its 2.5% and 97.5%
+# quantiles, and its p-value claims a certainty it does not have ("p <0.001" from two
+# queries). Intervals and bootstrap p-values of smaller groups are not given.
+MIN_QUERIES = 10
+TOO_FEW = "too few queries"  # what is shown instead of an interval or bootstrap p-value
 RTOL = 1e-9  # resampled statistics this close to the observed one count as "as extreme"
 
 
@@ -69,6 +75,18 @@ def _chunks(n: int, resamples: int) -> Iterator[int]:
     size = max(1, CELLS_PER_CHUNK // n)
     for start in range(0, resamples, size):
         yield min(size, resamples - start)
+
+
+def too_few(n: int) -> str | None:
+    """``TOO_FEW`` when ``n`` queries are too few for a bootstrap, else None."""
+    return TOO_FEW if n < MIN_QUERIES else None
+
+
+def few_queries_note(n: int) -> str:
+    """What a reader must know about a group of ``n < MIN_QUERIES`` queries."""
+    floor = 2.0 ** (1 - n)  # the observed pattern and its mirror image, of 2^n
+    return (f"fewer than {MIN_QUERIES}: no bootstrap interval or bootstrap p-value "
+            f"({TOO_FEW}), and the exact randomisation p-value cannot fall below {floor:.3g}")
 
 
 # --- bootstrap -----------------------------------------------------------------------------
@@ -187,14 +205,15 @@ def randomisation_many(diffs: np.ndarray, resamples: int = 10000, seed: int = 0)
     """Two-sided sign-flip p-values for each column of a (queries x comparisons) matrix.
 
     Under the null hypothesis each query's difference is as likely to have the other
-    sign. With few queries (2^n <= resamples) every sign pattern is enumerated and the
-    p-value is exact; otherwise it is ``(1 + as extreme) / (1 + resamples)``.
+    sign. With few queries (2^n <= resamples, or fewer than MIN_QUERIES whatever the
+    number of resamples) every sign pattern is enumerated and the p-value is exact;
+    otherwise it is ``(1 + as extreme) / (1 + resamples)``.
     """
     _check(resamples)
     diffs = np.asarray(diffs, dtype=np.float64)
     n = diffs.shape[0]
     observed = diffs.sum(axis=0)
-    if n <= EXACT_SIGNS_UP_TO and 2 ** n <= resamples:
+    if n <= EXACT_SIGNS_UP_TO and (2 ** n <= resamples or n < MIN_QUERIES):
         patterns = (np.arange(2 ** n)[:, None] >> np.arange(n)) & 1
         flipped = (1.0 - 2.0 * patterns) @ diffs
         return _as_extreme(flipped, observed) / 2 ** n
