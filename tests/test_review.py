@@ -17,6 +17,7 @@ from hypothesis import strategies as st
 
 from trawl.stats import cohen_kappa, wilson_interval
 from trawl.catalogue import load_catalogue
+from trawl.destinations import query_types
 from trawl.errors import InputError, UsageError
 from trawl.judgments import read_qrels, write_qrels
 from trawl.queries import write_queries
@@ -193,6 +194,17 @@ def test_sample_is_stratified_by_type_and_seeded(world, tmp_path):
     assert out.read_bytes() == first
     export_sheet(qrels, queries, cat, out, sample=16, seed=2)
     assert out.read_bytes() != first
+
+
+def test_review_types_queries_by_the_rule_scores_use(world, tmp_path):
+    # destinations.TYPE_RULE: a query whose best items have two types counts toward each
+    cat = world["catalogue"]
+    qrels = {"t1": {"kb-fares": 2, "faq-cap": 2, "scr-plan": 1}, "t2": {"scr-plan": 1}}
+    queries = {"t1": "fare cap", "t2": "plan a trip"}
+    summary = export_sheet(qrels, queries, cat, tmp_path / "t.csv")
+    types, _ = query_types(qrels, cat)
+    assert types == {"t1": ("article", "faq"), "t2": ("screen",)}
+    assert dict(summary.queries_per_type) == {"article": 1, "faq": 1, "screen": 1}
 
 
 def test_two_reviewers_share_an_overlap_and_split_the_rest(world):

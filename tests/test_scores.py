@@ -11,7 +11,8 @@ from trawl.catalogue import load_catalogue
 from trawl.errors import UsageError
 from trawl.judgments import read_qrels
 from trawl.runs import Run, make_run, read_run
-from trawl.scores import query_types, read_runs, score_runs
+from trawl.destinations import query_types
+from trawl.scores import read_runs, score_runs
 
 from .conftest import invoke
 from .scoring_data import write_collection

@@ -21,12 +21,13 @@ from typing import Any
 import numpy as np
 
 from .catalogue import Catalogue
+from .destinations import TYPE_RULE
 from .errors import UsageError
 from .judgments import Qrels
 from .metrics import DEFAULT_METRICS, Metric
 from .progress import progress
 from .runs import Run
-from .scores import TYPE_RULE, ScoreReport, count, score_runs
+from .scores import ScoreReport, count, score_runs
 from .stats import (Estimate, bootstrap_many, effect_sizes, few_queries_note, holm,
                     randomisation_many, too_few)
 

@@ -7,7 +7,17 @@ those files get the rule for free from splitting lines; everything else checks i
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
+EXAMPLES_SHOWN = 5
+
 
 def is_valid_id(text: str) -> bool:
     """True when ``text`` can stand as one field of a qrels or run line."""
     return bool(text) and not any(c.isspace() for c in text)
+
+
+def examples(ids: Sequence[str]) -> str:
+    """``"q1, q2, q3"`` or ``"q1, q2, ... (12 in all)"``: the ids a message shows."""
+    head = ", ".join(ids[:EXAMPLES_SHOWN])
+    return head if len(ids) <= EXAMPLES_SHOWN else f"{head}, ... ({len(ids)} in all)"

@@ -27,11 +27,12 @@ from typing import Any
 import numpy as np
 
 from .catalogue import Catalogue, Item
+from .destinations import TYPE_RULE, query_types
 from .errors import UsageError
 from .judgments import Qrels
 from .privacy import describe_counts, scrub_texts
 from .runs import Run
-from .scores import TYPE_RULE, query_types, run_warnings
+from .scores import run_warnings
 
 NO_RESULTS = "(no results)"
 UNKNOWN_ITEM = "(unknown item)"

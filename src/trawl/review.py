@@ -41,6 +41,7 @@ import numpy as np
 from .sampling import stratified_sample
 from .stats import Proportion, cohen_kappa, wilson_interval
 from .catalogue import Catalogue, Item
+from .destinations import NO_TYPE, query_types, stratum
 from .errors import InputError, UsageError
 from .files import atomic_write, read_text
 from .ids import is_valid_id
@@ -190,8 +191,8 @@ def export_sheet(qrels: Qrels, queries: Mapping[str, str], catalogue: Catalogue,
     styles = styles or {}
 
     qids = _query_universe(qrels, queries, catalogue, runs, pairs)
-    qtype = {q: _query_type(qrels.get(q, {}), catalogue) for q in qids}
-    qids = stratified_sample(qids, qtype.__getitem__, sample, seed)
+    types, _ = query_types(qrels, catalogue)  # every judged item is in the catalogue
+    qids = stratified_sample(qids, lambda q: stratum(types.get(q, ())), sample, seed)
     rng = np.random.default_rng(seed)
     shared, dealt = _split_for_reviewers(qids, reviewers, overlap or 0.0, rng)
 
@@ -224,7 +225,7 @@ def export_sheet(qrels: Qrels, queries: Mapping[str, str], catalogue: Catalogue,
         files.append(SheetFile(str(path), len(mine),
                                sum(r.reason == "silver" for r in rows),
                                sum(r.reason == "pooled" for r in rows)))
-    per_type = Counter(qtype[q] for q in qids if q in rows_by_q)
+    per_type = Counter(t for q in qids if q in rows_by_q for t in types.get(q, (NO_TYPE,)))
     return ExportSummary(tuple(files), len(rows_by_q),
                          sum(1 for q in shared if q in rows_by_q) if reviewers > 1 else 0,
                          dict(sorted(per_type.items())), scale, scrubbed, skipped)
@@ -278,15 +279,6 @@ def _query_universe(qrels: Qrels, queries: Mapping[str, str], catalogue: Catalog
         pooled_q += [q for q in queries if q in in_runs and q not in qrels]
         qids += pooled_q
     return qids
-
-
-def _query_type(judged: Mapping[str, int], catalogue: Catalogue) -> str:
-    """Type of the query's best-graded item (ties: smallest id); '-' when unjudged."""
-    best = [i for i, g in judged.items() if g > 0]
-    if not best:
-        return "-"
-    top = min(best, key=lambda i: (-judged[i], i))
-    return catalogue.by_id[top].type
 
 
 def _split_for_reviewers(qids: list[str], reviewers: int, overlap: float,

@@ -1,9 +1,7 @@
 """Score runs against qrels: per query, overall and per destination type.
 
-A query counts toward a destination type through the items it most wants: the
-catalogue types of its best-graded items (grade 2 in silver qrels). When those items
-have several types the query counts once toward each, so per-type query counts can add
-up to more than the number of queries; the overall mean counts every query once.
+Which type a query counts toward is ``destinations.TYPE_RULE``; the overall mean counts
+every query once.
 """
 
 from __future__ import annotations
@@ -18,7 +16,9 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .catalogue import Catalogue
+from .destinations import TYPE_RULE, query_types, type_members
 from .errors import UsageError
+from .ids import examples
 from .judgments import Qrels
 from .metrics import DEFAULT_METRICS, Metric, parse_metrics, score_matrix
 from .runs import Run, read_run
@@ -26,64 +26,10 @@ from .runs import Run, read_run
 if TYPE_CHECKING:  # pandas costs a second of start-up; the DataFrame views import it
     import pandas as pd
 
-TYPE_RULE = ("a query counts toward the destination type of its best-graded relevant "
-             "items; a query whose best items have several types counts toward each")
-EXAMPLES_SHOWN = 5
-
 
 def count(n: int, singular: str, plural: str | None = None) -> str:
     """``"1 query"``, ``"3 queries"``."""
     return f"{n} {singular if n == 1 else plural or singular + 's'}"
-
-
-def examples(ids: Sequence[str]) -> str:
-    """``"q1, q2, q3"`` or ``"q1, q2, ... (12 in all)"`` for warnings."""
-    head = ", ".join(ids[:EXAMPLES_SHOWN])
-    return head if len(ids) <= EXAMPLES_SHOWN else f"{head}, ... ({len(ids)} in all)"
-
-
-def query_types(qrels: Qrels, catalogue: Catalogue) -> tuple[dict[str, tuple[str, ...]], list[str]]:
-    """Destination types per query (see module doc) and warnings about unknown items.
-
-    Queries with no item graded >= 1, or whose best items are all missing from the
-    catalogue, get no type: they count overall but in no per-type row.
-    """
-    by_id = catalogue.by_id
-    types: dict[str, tuple[str, ...]] = {}
-    unknown: dict[str, None] = {}
-    untyped: list[str] = []
-    for qid, judged in qrels.items():
-        top = max(judged.values())
-        if top < 1:
-            continue
-        found = set()
-        for item, grade in judged.items():
-            if item not in by_id:
-                unknown[item] = None
-            elif grade == top:
-                found.add(by_id[item].type)
-        if found:
-            types[qid] = tuple(sorted(found))
-        else:
-            untyped.append(qid)
-    warnings = []
-    if unknown:
-        warnings.append(f"judged items not in the catalogue {catalogue.path}: "
-                        f"{len(unknown)}: {examples(list(unknown))}")
-    if untyped:
-        warnings.append(f"queries whose best-graded items are all missing from the "
-                        f"catalogue (so in no destination type): {len(untyped)}: "
-                        f"{examples(untyped)}")
-    return types, warnings
-
-
-def type_members(qids: Sequence[str], types: Mapping[str, tuple[str, ...]]) -> dict[str, np.ndarray]:
-    """Row indices of the queries counting toward each type, types in name order."""
-    rows: dict[str, list[int]] = {}
-    for i, qid in enumerate(qids):
-        for t in types.get(qid, ()):
-            rows.setdefault(t, []).append(i)
-    return {t: np.asarray(rows[t], dtype=np.int64) for t in sorted(rows)}
 
 
 def run_warnings(qrels: Qrels, run: Run, catalogue: Catalogue | None) -> list[str]:

@@ -1,0 +1,74 @@
+"""The one rule for a query's destination type, shared by scores, comparisons, misses
+and review sheets.
+
+A query counts toward a destination type through the items it most wants: the
+catalogue types of its best-graded items (grade 2 in silver qrels). When those items
+have several types the query counts once toward each, so per-type query counts can add
+up to more than the number of queries; the overall mean counts every query once.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+
+from .catalogue import Catalogue
+from .ids import examples
+from .judgments import Qrels
+
+TYPE_RULE = ("a query counts toward the destination type of its best-graded relevant "
+             "items; a query whose best items have several types counts toward each")
+NO_TYPE = "-"  # the stratum of a query with no relevant judged item
+
+
+def query_types(qrels: Qrels, catalogue: Catalogue
+                ) -> tuple[dict[str, tuple[str, ...]], list[str]]:
+    """Destination types per query (see module doc) and warnings about unknown items.
+
+    Queries with no item graded >= 1, or whose best items are all missing from the
+    catalogue, get no type: they count overall but in no per-type row.
+    """
+    by_id = catalogue.by_id
+    types: dict[str, tuple[str, ...]] = {}
+    unknown: dict[str, None] = {}
+    untyped: list[str] = []
+    for qid, judged in qrels.items():
+        top = max(judged.values(), default=0)
+        if top < 1:
+            continue
+        found = set()
+        for item, grade in judged.items():
+            if item not in by_id:
+                unknown[item] = None
+            elif grade == top:
+                found.add(by_id[item].type)
+        if found:
+            types[qid] = tuple(sorted(found))
+        else:
+            untyped.append(qid)
+    warnings = []
+    if unknown:
+        warnings.append(f"judged items not in the catalogue {catalogue.path}: "
+                        f"{len(unknown)}: {examples(list(unknown))}")
+    if untyped:
+        warnings.append(f"queries whose best-graded items are all missing from the "
+                        f"catalogue (so in no destination type): {len(untyped)}: "
+                        f"{examples(untyped)}")
+    return types, warnings
+
+
+def type_members(qids: Sequence[str], types: Mapping[str, tuple[str, ...]]
+                 ) -> dict[str, np.ndarray]:
+    """Row indices of the queries counting toward each type, types in name order."""
+    rows: dict[str, list[int]] = {}
+    for i, qid in enumerate(qids):
+        for t in types.get(qid, ()):
+            rows.setdefault(t, []).append(i)
+    return {t: np.asarray(rows[t], dtype=np.int64) for t in sorted(rows)}
+
+
+def stratum(types: Sequence[str]) -> str:
+    """One label per query for stratified sampling: its types joined by '+' (a query
+    whose best items have two types is its own stratum), or ``NO_TYPE``."""
+    return "+".join(types) or NO_TYPE
