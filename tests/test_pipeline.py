@@ -239,7 +239,8 @@ def test_rerun_reuses_indexes_and_the_embedding_cache(library, evaluated):
 
 @pytest.mark.slow
 def test_silver_sets_are_labelled_as_estimates(library, tmp_path):
-    from trawl.synth import SilverSet, write_silver
+    from trawl.silver import write_silver
+    from trawl.synth import SilverSet
 
     cat, _, _ = library
     prefix = tmp_path / "lib-silver"
@@ -257,7 +258,7 @@ def test_silver_sets_are_labelled_as_estimates(library, tmp_path):
                      "--resamples", "200", "-q"])
     assert result.exit_code == 0, result.output
     assert "silver judgments: figures are estimates; agreement with human judgments not " \
-           "measured" in result.stdout
+           "measured; see docs/silver-quality.md" in result.stdout
     bundle = json.loads((out / "results.json").read_text())
     ev = bundle["evaluations"][0]
     assert ev["silver"] is True
@@ -271,7 +272,7 @@ def test_silver_sets_are_labelled_as_estimates(library, tmp_path):
     human_ev = json.loads(human.stdout)["evaluations"][0]
     assert (human_ev["silver"], human_ev["judged_by"]) == (False, "human judgments")
     assert ev["judged_by"] == ("silver judgments: figures are estimates; agreement with human "
-                               "judgments not measured")
+                               "judgments not measured; see docs/silver-quality.md")
 
 
 @pytest.mark.parametrize("extra, message", [

@@ -22,8 +22,9 @@ from trawl.errors import InputError, UsageError
 from trawl.judgments import read_qrels, write_qrels
 from trawl.queries import write_queries
 from trawl.review import (COLUMNS, export_sheet, guard_cell, import_sheets, merge_grades,
-                          read_styles, unguard_cell)
+                          unguard_cell)
 from trawl.runs import make_run, write_run
+from trawl.silver import read_styles
 
 from .conftest import invoke
 

@@ -203,7 +203,12 @@ def test_silver_judgments_are_marked_as_estimates(files, tmp_path):
     assert flagged.stdout.splitlines()[-1].startswith(
         f"note: {silver} holds silver (machine-made) judgments, so every figure above is an "
         "estimate")
-    (tmp_path / "made.jsonl").write_text("{}\n")  # a `trawl synth` provenance file beside it
+    # a catalogue that happens to share the name is not provenance: still not silver
+    (tmp_path / "made.jsonl").write_text('{"id": "faq-pets", "type": "faq", "title": "Pets"}\n')
+    assert json.loads(invoke(["misses", silver, files["dense"], "-c", files["catalogue"],
+                              "--json"]).stdout)["silver"] is False
+    (tmp_path / "made.jsonl").write_text(  # a `trawl synth` provenance file beside it
+        '{"qid": "q1", "text": "x", "source": "faq-pets", "style": "keyword", "seed": 0}\n')
     auto = invoke(["misses", silver, files["dense"], "-c", files["catalogue"], "--json"])
     assert json.loads(auto.stdout)["silver"] is True
     assert "holds silver" in invoke(["compare", silver, files["dense"], files["lexical"],

@@ -9,7 +9,8 @@ import pytest
 
 from trawl.catalogue import Catalogue, Item
 from trawl.errors import InputError, UsageError
-from trawl.synth import read_lexicon, synthesise, write_silver
+from trawl.silver import write_silver
+from trawl.synth import read_lexicon, synthesise
 from trawl.synth.corpus import build_corpus
 from trawl.synth.grading import Draft, merge_near_duplicates
 from trawl.synth.keyword import keyword_query, salient_terms, title_phrase

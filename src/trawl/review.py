@@ -26,7 +26,6 @@ from __future__ import annotations
 
 import csv
 import io
-import json
 import math
 import re
 from collections import Counter
@@ -101,31 +100,6 @@ def guard_cell(text: str) -> str:
 
 def unguard_cell(text: str) -> str:
     return text[1:] if _GUARDED.match(text) else text
-
-
-def read_styles(path: str | Path) -> dict[str, str]:
-    """Query style per qid from a synthesis provenance file (one JSON object per line).
-
-    Read defensively: objects without a ``style`` give "", unknown fields are ignored.
-    """
-    out: dict[str, str] = {}
-    for n, line in enumerate(read_text(path, "provenance file").split("\n"), start=1):
-        if not line.strip():
-            continue
-        try:
-            obj = json.loads(line)
-        except json.JSONDecodeError as exc:
-            raise InputError(path, f"malformed JSON: {exc.msg} (column {exc.colno})",
-                             line=n) from None
-        if not isinstance(obj, dict):
-            raise InputError(path, "expected a JSON object per line", line=n)
-        qid = obj.get("qid")
-        if not isinstance(qid, (str, int)) or isinstance(qid, bool) or str(qid) == "":
-            raise InputError(path, "missing or empty; every line needs the query id", line=n,
-                             field="qid")
-        style = obj.get("style")
-        out[str(qid)] = style if isinstance(style, str) else ""
-    return out
 
 
 # --- export ------------------------------------------------------------------------------

@@ -273,18 +273,3 @@ def warning_lines(warnings: Sequence[str], max_shown: int = 20) -> list[str]:
     if len(warnings) > max_shown:
         out.append(f"  ... and {len(warnings) - max_shown} more (--json lists all)")
     return out
-
-
-def silver_provenance(qrels_path: str | Path) -> Path | None:
-    """The ``trawl synth`` provenance file (PREFIX.jsonl beside PREFIX.qrels), if any:
-    its presence marks the judgments as silver (machine-made)."""
-    path = Path(qrels_path)
-    sidecar = path.with_suffix(".jsonl")
-    return sidecar if path.suffix == ".qrels" and sidecar.is_file() else None
-
-
-def silver_note(qrels_path: str | Path) -> str:
-    return (f"note: {qrels_path} holds silver (machine-made) judgments, so every figure above "
-            "is an estimate of what people's judgments would give (read it for the order of "
-            "systems: synthesised queries are easier, so levels run high); `trawl review` "
-            "and `trawl agree` measure how far to trust them")

@@ -11,7 +11,6 @@ other items were sampled.
 
 from __future__ import annotations
 
-import json
 import random
 from collections import Counter
 from collections.abc import Callable, Mapping, Sequence
@@ -21,10 +20,8 @@ from typing import Any
 
 from ..catalogue import Catalogue, Item
 from ..errors import UsageError
-from ..files import atomic_write
-from ..judgments import Qrels, write_qrels
+from ..judgments import Qrels
 from ..progress import progress
-from ..queries import write_queries
 from .calibrate import calibrate_profile
 from .corpus import Corpus, build_corpus
 from .filters import round_trip_keep
@@ -373,15 +370,3 @@ def _summary(final: Mapping[str, Merged], catalogue: Catalogue,
             "dropped": sum(dropped.values()),
             "mean_overlap": round(sum(ovs) / len(ovs), 3) if ovs else None,
             "profile": profile.as_dict(), "rows": rows}
-
-
-def write_silver(prefix: str | Path, silver: SilverSet) -> list[Path]:
-    """Write PREFIX.queries.tsv, PREFIX.qrels and PREFIX.jsonl (each atomically)."""
-    prefix = str(prefix)
-    paths = [Path(prefix + ".queries.tsv"), Path(prefix + ".qrels"), Path(prefix + ".jsonl")]
-    write_queries(paths[0], silver.queries)
-    write_qrels(paths[1], silver.qrels)
-    with atomic_write(paths[2]) as fh:
-        for rec in silver.provenance:
-            fh.write(json.dumps(rec, ensure_ascii=False, sort_keys=False) + "\n")
-    return paths
