@@ -7,6 +7,7 @@ import json
 import pytest
 
 from trawl import pipeline
+from trawl.pipeline import demo_job
 from trawl.errors import TrawlError
 
 from .conftest import DEMO_CATALOGUE, GOLD_QRELS, GOLD_QUERIES, invoke
@@ -44,18 +45,22 @@ def test_demo_reduced_runs_the_whole_job(tmp_path):
     page = (out / "report.html").read_text(encoding="utf-8")
     assert 'id="agreement"' in page and "Silver judgments are estimates." in page
     assert json.loads((out / "agreement.json").read_text())["kendall_tau_b"] == ag["tau"]
+    # the demo's results.json fits the bundle's schema (reference: the jsonschema library)
+    jsonschema = pytest.importorskip("jsonschema")
+    jsonschema.validate(json.loads((out / "results.json").read_text(encoding="utf-8")),
+                        pipeline.results_schema(), cls=jsonschema.Draft202012Validator)
 
 
 @needs_data
 def test_demo_finds_its_data_in_the_checkout():
-    assert (pipeline.demo_data_root() / pipeline.DEMO_CATALOGUE) == DEMO_CATALOGUE
+    assert (demo_job.demo_data_root() / demo_job.DEMO_CATALOGUE) == DEMO_CATALOGUE
 
 
 def test_missing_demo_data_is_a_clear_error(monkeypatch, tmp_path):
-    monkeypatch.setattr(pipeline, "DEMO_CATALOGUE", tmp_path / "nowhere.jsonl")
+    monkeypatch.setattr(demo_job, "DEMO_CATALOGUE", tmp_path / "nowhere.jsonl")
     with pytest.raises(TrawlError, match=r"demo data not found: .*nowhere\.jsonl is missing; "
                                          r"the demo runs from a source checkout"):
-        pipeline.demo_data_root()
+        demo_job.demo_data_root()
 
 
 def test_demo_rejects_unknown_fusion_before_any_work(tmp_path):

@@ -319,3 +319,21 @@ def test_search_key_follows_the_inputs_not_the_build_time():
                search_key(manifest, queries, 10, 1)]
     assert len({key, *changed}) == 6
     assert fused_key([key, "x"], 10) != fused_key(["x", key], 10)
+
+
+def test_write_rows_picks_json_or_csv_by_the_file_name(tmp_path):
+    import csv
+
+    from trawl.pipeline import write_rows
+
+    rows = [{"run": "bm25", "qid": "h1", "types": ["faq", "form"], "ndcg@10": 0.5},
+            {"run": "bm25", "qid": "h2", "types": [], "ndcg@10": float("nan")}]
+    columns = ["run", "qid", "types", "ndcg@10"]
+    write_rows(tmp_path / "rows.json", rows, columns)
+    assert (tmp_path / "rows.json").read_text(encoding="utf-8") == json.dumps(
+        rows, indent=1, ensure_ascii=False) + "\n"
+    write_rows(tmp_path / "rows.csv", rows, columns)
+    # Reference: Python's csv module reads back what was written.
+    with open(tmp_path / "rows.csv", newline="", encoding="utf-8") as fh:
+        read = list(csv.reader(fh))
+    assert read == [columns, ["bm25", "h1", "faq form", "0.5"], ["bm25", "h2", "", ""]]

@@ -1,15 +1,17 @@
-"""Timing under a chosen compute thread count: applied while timing, restored after,
-recorded in the latency sidecar and the report, refused below 1."""
+"""Timing: one loop for single and fused systems, under a chosen compute thread count
+(applied while timing, restored after, recorded in the latency sidecar and the report,
+refused below 1)."""
 
 from __future__ import annotations
 
 import json
+import statistics
 
 import faiss
 import pytest
 import torch
 
-from trawl.latency import measure_search, use_threads
+from trawl.latency import measure_fused, measure_search, percentiles, time_queries, use_threads
 from trawl.errors import UsageError
 from trawl.index import build_index, open_index
 
@@ -80,6 +82,55 @@ def test_measure_search_times_every_query_under_the_count_and_records_it(tmp_pat
     assert seen == [(n, n)] * 6  # 2 warm-up + 4 timed
     assert report.threads == n
     assert _counts() == before
+
+
+def test_the_timing_loop_warms_up_in_turn_then_times_every_query_once():
+    served = []
+    ms = time_queries(lambda qid, text: served.append((qid, text)),
+                      {"a": "x", "b": "y", "c": "z"}, warmup=4)
+    assert served == [("a", "x"), ("b", "y"), ("c", "z"), ("a", "x"),  # warm-up, cycling
+                      ("a", "x"), ("b", "y"), ("c", "z")]  # timed
+    assert len(ms) == 3 and min(ms) >= 0
+    with pytest.raises(UsageError, match="^no queries to time$"):
+        time_queries(lambda qid, text: None, {}, warmup=1)
+
+
+def test_percentiles_match_linear_interpolation():
+    # Reference: Python's statistics.quantiles with method="inclusive" interpolates
+    # linearly between order statistics, as numpy's default percentile does.
+    ms = [3.1, 0.4, 9.9, 2.2, 5.0, 7.3, 1.8, 4.4, 0.9, 6.6, 8.1]
+    cuts = statistics.quantiles(ms, n=100, method="inclusive")
+    got = percentiles(ms)
+    assert got["p50_ms"] == pytest.approx(round(cuts[49], 4))
+    assert got["p95_ms"] == pytest.approx(round(cuts[94], 4))
+    assert got["p99_ms"] == pytest.approx(round(cuts[98], 4))
+    assert got["mean_ms"] == pytest.approx(round(statistics.fmean(ms), 4))
+
+
+def _counting(search_one, calls: list):
+    def spy(text, k):
+        calls.append(k)
+        return search_one(text, k)
+    return spy
+
+
+def test_a_fused_system_is_timed_by_the_same_loop_searching_every_part(tmp_path):
+    cat, loader = tiny_catalogue(), FakeLoader()
+    build_index(cat, "minilm", tmp_path / "dense", cache_dir=tmp_path / "c", quiet=True,
+                loader=loader)
+    build_index(cat, "bm25", tmp_path / "lexical", quiet=True)
+    parts = [open_index(tmp_path / "dense", cat, loader=loader),
+             open_index(tmp_path / "lexical", cat)]
+    calls = {"dense": [], "lexical": []}
+    for name, index in zip(calls, parts):
+        index.search_one = _counting(index.search_one, calls[name])
+    queries = {f"q{i}": f"late fees {i}" for i in range(4)}
+    out = measure_fused(parts, ["dense", "lexical"], queries, k=3, name="dense+lexical",
+                        warmup=2)
+    assert calls == {"dense": [3] * 6, "lexical": [3] * 6}  # 2 warm-up + 4 timed, each part
+    assert (out["queries_timed"], out["warmup"], out["k"]) == (4, 2, 3)
+    assert out["p50_ms"] <= out["p95_ms"] <= out["p99_ms"]
+    assert "search of each part (dense, lexical)" in out["method"]
 
 
 @pytest.fixture

@@ -3,7 +3,9 @@
 Per-query latency is encode + search of one query at a time (a search box sends one
 query per request), after a few warm-up queries that are not counted (first calls pay
 for lazy model loading, allocator growth and cold caches). Batch throughput is the
-whole query set through ``Index.search``. The run returned is the batch run.
+whole query set through ``Index.search``. The run returned is the batch run. A fused
+system is timed by the same loop, serving each query by searching every part in turn
+and fusing, as a simple service would.
 
 Timing can run under a chosen compute thread count (``use_threads``): on a busy
 machine, compute threads that wait for a core inflate single-query latency, so time
@@ -15,14 +17,16 @@ from __future__ import annotations
 import os
 import platform
 import time
-from collections.abc import Iterator, Mapping
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
+from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from .errors import UsageError
+from .fusion import RRF_K, reciprocal_rank_fusion
 from .runs import Run
 
 if TYPE_CHECKING:
@@ -64,6 +68,30 @@ class LatencyReport:
         return out
 
 
+def time_queries(serve: Callable[[str, str], object], queries: Mapping[str, str],
+                 warmup: int = DEFAULT_WARMUP) -> list[float]:
+    """The one timing loop: ``warmup`` calls of ``serve(qid, text)`` that are not counted
+    (cycling through the queries), then every query served alone; milliseconds each."""
+    items = list(queries.items())
+    if not items:
+        raise UsageError("no queries to time")
+    for i in range(warmup):
+        serve(*items[i % len(items)])
+    per_query = []
+    for qid, text in items:
+        start = time.perf_counter_ns()
+        serve(qid, text)
+        per_query.append((time.perf_counter_ns() - start) / 1e6)
+    return per_query
+
+
+def percentiles(per_query: Sequence[float]) -> dict[str, float]:
+    """p50, p95, p99 and mean of per-query milliseconds, rounded to 4 decimals."""
+    ms = np.asarray(per_query, dtype=np.float64)
+    return {"p50_ms": _round(np.percentile(ms, 50)), "p95_ms": _round(np.percentile(ms, 95)),
+            "p99_ms": _round(np.percentile(ms, 99)), "mean_ms": _round(ms.mean())}
+
+
 def measure_search(index: Index, queries: Mapping[str, str], k: int = 100,
                    warmup: int = DEFAULT_WARMUP, quiet: bool = True,
                    name: str | None = None, threads: int | None = None
@@ -73,32 +101,48 @@ def measure_search(index: Index, queries: Mapping[str, str], k: int = 100,
     if warmup < 0:
         raise UsageError(f"warm-up count {warmup} must be >= 0")
     index.check_k(k)
-    texts = list(queries.values())
-    if not texts:
+    if not queries:
         raise UsageError("no queries to time")
     with use_threads(threads) as in_force:
-        for i in range(warmup):
-            index.search_one(texts[i % len(texts)], k)
-        per_query = []
-        for text in texts:
-            start = time.perf_counter_ns()
-            index.search_one(text, k)
-            per_query.append((time.perf_counter_ns() - start) / 1e6)
+        per_query = time_queries(lambda _qid, text: index.search_one(text, k), queries, warmup)
         start = time.perf_counter()
         run = index.search(queries, k, quiet=quiet, name=name)
         batch_seconds = time.perf_counter() - start
-    ms = np.asarray(per_query)
     size = index.bytes
     report = LatencyReport(
         index=str(index.path), encoder=str(index.spec), ann=index.manifest["search"]["ann"],
-        k=k, queries_timed=len(per_query), warmup=warmup,
-        p50_ms=_round(np.percentile(ms, 50)), p95_ms=_round(np.percentile(ms, 95)),
-        p99_ms=_round(np.percentile(ms, 99)), mean_ms=_round(ms.mean()),
-        batch_queries=len(texts), batch_seconds=_round(batch_seconds),
-        batch_queries_per_s=_round(len(texts) / batch_seconds) if batch_seconds > 0 else 0.0,
+        k=k, queries_timed=len(per_query), warmup=warmup, **percentiles(per_query),
+        batch_queries=len(queries), batch_seconds=_round(batch_seconds),
+        batch_queries_per_s=_round(len(queries) / batch_seconds) if batch_seconds > 0 else 0.0,
         index_bytes=size, items=len(index), bytes_per_item=_round(size / len(index)),
         cpu=cpu_model(), threads=in_force)
     return run, report
+
+
+def measure_fused(indexes: Sequence[Index], names: Sequence[str], queries: Mapping[str, str],
+                  k: int, name: str, warmup: int = DEFAULT_WARMUP) -> dict[str, Any]:
+    """Latency of a fused system served one query at a time: every part searched in
+    turn, then fused (the parts run one after the other, as a simple service would).
+    Timed under the thread count in force; the caller adds throughput and threads."""
+
+    def serve(qid: str, text: str) -> None:
+        runs = [Run(n, {qid: ix.search_one(text, k)}) for n, ix in zip(names, indexes)]
+        reciprocal_rank_fusion(runs, RRF_K, depth=k, name=name)
+
+    per_query = time_queries(serve, queries, warmup)
+    out: dict[str, Any] = percentiles(per_query)
+    out.update(queries_timed=len(per_query), warmup=warmup, k=k,
+               method=f"per-query: search of each part ({', '.join(names)}) one query at a "
+                      f"time, then Reciprocal Rank Fusion (k={RRF_K}); {warmup} warm-up "
+                      "queries excluded")
+    return out
+
+
+def fused_throughput(part_rates: Sequence[float | None]) -> float:
+    """Batch throughput of a fusion from its parts' (queries per second): the parts'
+    batch times add up (fusion itself is negligible next to them)."""
+    seconds = sum(1 / rate for rate in part_rates if rate)
+    return round(1 / seconds, 4) if seconds > 0 else 0.0
 
 
 def _round(x: float) -> float:
@@ -153,3 +197,14 @@ def use_threads(threads: int | None) -> Iterator[int]:
     finally:
         torch.set_num_threads(before[0])
         faiss.omp_set_num_threads(before[1])
+
+
+def write_latency(run_path: str | Path, report: LatencyReport) -> Path:
+    """Write ``report`` beside its run as ``RUN.latency.json``; returns that path."""
+    import json
+
+    from .files import write_text_atomic
+
+    sidecar = Path(f"{run_path}.latency.json")
+    write_text_atomic(sidecar, json.dumps(report.as_dict(), indent=2) + "\n")
+    return sidecar

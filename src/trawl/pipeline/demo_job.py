@@ -1,0 +1,93 @@
+"""The demo: the whole job on the bundled transit catalogue, from an empty folder."""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from pathlib import Path
+
+from ..catalogue import check_catalogue, load_catalogue
+from ..errors import TrawlError
+from ..latency import check_threads
+from .evaluation import DEFAULT_RESAMPLES, EvalResult, evaluate
+from .sets import JudgmentSet
+from .systems import plan_systems
+
+Notify = Callable[[str], None]
+DEMO_CATALOGUE = Path("corpora/quillfern.jsonl")
+DEMO_GOLD_QUERIES = Path("qrels/quillfern-gold.queries.tsv")
+DEMO_GOLD_QRELS = Path("qrels/quillfern-gold.qrels")
+DEMO_ENCODERS = ("minilm", "minilm-int8", "static", "bm25")
+DEMO_FUSE = ("minilm+bm25",)
+STATIC_ALIAS = "static"  # in the demo, the static model it distils itself
+
+
+def demo_data_root() -> Path:
+    """The source checkout holding the demo data (trawl installed in editable mode)."""
+    root = Path(__file__).resolve().parents[3]
+    missing = [p for p in (DEMO_CATALOGUE, DEMO_GOLD_QUERIES, DEMO_GOLD_QRELS)
+               if not (root / p).is_file()]
+    if missing:
+        raise TrawlError(f"demo data not found: {root / missing[0]} is missing; the demo "
+                         "runs from a source checkout installed with `pip install -e .` "
+                         "(or `make demo`)")
+    return root
+
+
+def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENCODERS,
+         fuse: Sequence[str] | None = None, sample: int | None = None,
+         resamples: int = DEFAULT_RESAMPLES, seed: int = 0,
+         cache_dir: str | Path | None = None, retime: bool = False,
+         threads: int | None = None, quiet: bool = False,
+         notify: Notify | None = None) -> EvalResult:
+    """The whole job on the bundled transit catalogue, from an empty folder.
+
+    Checks the catalogue, distils the static encoder (kept for reruns), synthesises
+    silver queries, evaluates every system against the silver and the hand-judged gold
+    set, and measures how alike the two sets rank the systems. ``static`` among the
+    encoders means the distilled model; ``sample`` limits the items queries are
+    synthesised from (for quick runs). The embedding cache defaults to ``OUT/cache``.
+    ``threads`` is passed to ``evaluate``.
+    """
+    from ..distill import distill_static
+    from ..silver import write_silver
+    from ..synth import synthesise
+
+    say = notify or (lambda _msg: None)
+    root = demo_data_root()
+    out = Path(out_dir)
+    if fuse is None:
+        fuse = tuple(f for f in DEMO_FUSE if set(f.split("+")) <= set(encoders))
+    static_dir = out / "models" / "static"
+    specs = [f"{STATIC_ALIAS}=static:{static_dir}" if e == STATIC_ALIAS else e
+             for e in encoders]
+    plan_systems(specs, fuse, check_paths=False)  # reject bad options before any work
+    check_threads(threads)
+    cat = load_catalogue(root / DEMO_CATALOGUE)
+    check = check_catalogue(cat, unit="words")
+    say(f"check {DEMO_CATALOGUE}: {check.items} items, "
+        + ", ".join(f"{n} {t}" for t, n in check.types.items())
+        + f"; {len(check.warnings)} warning(s)")
+    if STATIC_ALIAS in encoders:
+        if (static_dir / "config.json").is_file():
+            say(f"distil static encoder: reusing {static_dir}")
+        else:
+            say(f"distil static encoder from the bundled model into {static_dir}")
+            distill_static(static_dir, quiet=quiet)
+    cache = cache_dir if cache_dir is not None else out / "cache"
+    # two slots per item: on this catalogue's short titles one slot leaves ~30 queries
+    silver = synthesise(cat, per_item=2, sample=sample, seed=seed, cache_dir=cache,
+                        quiet=quiet)
+    prefix = out / "silver" / "quillfern-silver"
+    write_silver(prefix, silver)
+    say(f"synthesise silver queries: {len(silver.queries)} queries from "
+        f"{silver.summary['items']} items")
+    sets = [JudgmentSet("silver", Path(f"{prefix}.queries.tsv"), Path(f"{prefix}.qrels"),
+                        "silver set", silver=True),
+            JudgmentSet("gold", root / DEMO_GOLD_QUERIES, root / DEMO_GOLD_QRELS,
+                        "gold set", silver=False,
+                        how="written and judged by hand for the demo catalogue")]
+    return evaluate(cat, sets, specs, out, fuse=fuse, resamples=resamples, seed=seed,
+                    cache_dir=cache,
+                    agreement=("silver", "gold") if len(specs) + len(fuse) >= 2 else None,
+                    title="Quillfern Regional Transit: rider app search", retime=retime,
+                    threads=threads, quiet=quiet, notify=notify)
