@@ -34,7 +34,7 @@ def random_run_text(rng: random.Random) -> str:
     lines = []
     for q in range(rng.randint(1, 5)):
         for r, i in enumerate(rng.sample(range(30), rng.randint(1, 12)), start=1):
-            score = rng.choice(["1", "0.5", "0.25", "2", "-1", "1e3", "0.0", "-0.0", "inf"])
+            score = rng.choice(["1", "0.5", "0.25", "2", "-1", "1e3", "0.0", "-0.0", ".5"])
             sep = rng.choice([" ", "  ", "\t"])
             lines.append(f"q{q}{sep}Q0 d{i} {r} {score} tag{q}")
     roll = rng.random()
@@ -47,7 +47,8 @@ def random_run_text(rng: random.Random) -> str:
     elif roll < 0.5:
         lines[rng.randrange(len(lines))] = rng.choice(
             ["q0 Q0 dx -1 1 t", "q0 Q0 dy 1 nan t", "q0 Q0 dé 1 1 t", "q0 Q0 dz 1 x t",
-             "q0 Q0 d\x0b 1 1 t", "q0 Q0 dn 1 1_0 t"])
+             "q0 Q0 d\x0b 1 1 t", "q0 Q0 dn 1 1_0 t", "q0 Q0 di 1 inf t",
+             "q0 Q0 dj 1 -Infinity t", "q0 Q0 dk 1 1e999 t"])
     if rng.random() < 0.2:
         lines.insert(rng.randrange(len(lines) + 1), "")
     return "\n".join(lines) + rng.choice(["", "\n", "\n\n"])
@@ -82,10 +83,10 @@ def test_ties_and_unsorted_scores_come_out_in_trec_eval_order(tmp_path):
 
 @pytest.mark.parametrize("text", [
     "q1 Q0 a 1 1.0 t\nq1 Q0 a 2 0.5 t\n",  # duplicate item
-    "q1 Q0 a +1 1.0 t\n",  # signed rank
+    "q1 Q0 a 1.5 1.0 t\n",  # a rank that is not a whole number
     "q1 Q0 caf\u00a0e 1 1.0 t\n",  # a no-break space, which str.split() splits on
-    "\ufeffq1 Q0 a 1 1.0 t\n",  # byte-order mark
     "q1 Q0 a 1 nan t\n",  # NaN score
+    "q1 Q0 a 1 inf t\n",  # infinite score
 ])
 def test_unusual_files_take_the_careful_path(tmp_path, text):
     path = tmp_path / "u.run"
@@ -99,6 +100,7 @@ def test_unusual_files_take_the_careful_path(tmp_path, text):
     "q1 Q0 a 1 1.0 t\nq1\tQ0 b 2 0.5\tt",  # tab and space mixed, no final newline
     "q2 Q0 a 1 1.0 t\nq1 Q0 a 1 1.0 t\nq2 Q0 b 2 0.5 t\n",  # query lines not contiguous
     "q1 Q0 caf\u00e9 1 1.0 t\n",  # non-ASCII item id
+    "\ufeffq1 Q0 a 1 1.0 t\n",  # byte-order mark (dropped by both readers)
 ])
 def test_whitespace_and_order_variants_are_read_as_columns(tmp_path, text):
     path = tmp_path / "v.run"

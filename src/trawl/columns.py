@@ -27,13 +27,14 @@ from typing import Any
 
 import numpy as np
 
-SCAN_BLOCK = 1 << 24   # bytes of the file checked and parsed at a time
+SCAN_BLOCK = 1 << 24   # bytes of a file with tabs or padding normalised at a time
 PARSE_BLOCK = 1 << 21  # bytes per pyarrow parse task (blocks are parsed on several threads)
 GAIN_ROWS = 1 << 20    # run lines looked up at a time when scoring
-# Lead bytes of UTF-8 sequences that may be Unicode whitespace (U+0085, U+00A0, U+1680,
-# U+2000-U+200A, U+2028/9, U+202F, U+205F, U+3000), which str.split() would split on.
-_MAYBE_SPACE = (b"\xc2\x85", b"\xc2\xa0", b"\xe1\x9a\x80", b"\xe2\x80", b"\xe2\x81\x9f",
-                b"\xe3\x80\x80")
+# UTF-8 that may be Unicode whitespace (U+0085, U+00A0, U+1680, U+2000-U+200A, U+2028/9,
+# U+202F, U+205F, U+3000), which str.split() splits on, or a byte-order mark, which the
+# careful reader drops from the start of a file.
+_SUSPECT = (b"\xc2\x85", b"\xc2\xa0", b"\xe1\x9a\x80", b"\xe2\x80", b"\xe2\x81\x9f",
+            b"\xe3\x80\x80", b"\xef\xbb\xbf")
 _RUN_FIELDS = ("qid", "q0", "item", "rank", "score", "tag")
 _SPACES = re.compile(rb" {2,}")
 
@@ -88,107 +89,122 @@ class RankedColumns(Mapping[str, tuple[tuple[str, float], ...]]):
 
 def read_run_columns(path: str | Path) -> tuple[str, RankedColumns] | None:
     """(first tag, columns) of a run, or None to read it line by line."""
-    import pyarrow as pa
-
-    tables, tag = [], None
+    path = Path(path)
     try:
-        for block in _blocks(Path(path)):
-            table = _parse(block)
-            if table is None:
-                return None
-            if tag is None and table.num_rows:
-                tag = block.lstrip(b"\n").split(b"\n", 1)[0].split(b" ")[5].decode("utf-8")
-            tables.append(table)
+        table = _parse(path) or _parse_normalised(path)
     except OSError:
         return None  # the careful reader names what is wrong with the file
-    if tag is None:
+    if table is None or table.num_rows == 0:
         return None
-    table = pa.concat_tables(tables).unify_dictionaries()
-    del tables
     scores = _numpy(table["score"])
-    if np.isnan(scores).any():
-        return None
+    if not np.isfinite(scores).all():
+        return None  # nan and inf are refused (trawl.numbers), with the line, by the other reader
+    tag_codes, tags = _codes(table["tag"])
+    tag = tags[int(tag_codes[0])].as_py()
     queries, qids = _codes(table["qid"])
     codes, vocabulary = _codes(table["item"])
-    del table
+    del table, tag_codes
     columns = _rank_ordered(qids, queries, codes, scores, vocabulary)
     return None if columns is None else (tag, columns)
 
 
-def _blocks(path: Path) -> Iterator[bytes | None]:
-    """The file in blocks of whole lines, fields joined by single spaces; None for a
-    block holding anything str.split() might treat otherwise than a plain parser."""
-    with path.open("rb") as fh:
-        rest = b""
-        first = True
-        while True:
-            read = fh.read(SCAN_BLOCK)
-            data = rest + read
-            if first and data.startswith(b"\xef\xbb\xbf"):
-                yield None  # a byte-order mark
-                return
-            first = False
-            cut = data.rfind(b"\n") + 1 if read else len(data)
-            block, rest = data[:cut], data[cut:]
-            if not block:
-                if read:
-                    continue
-                return
-            yield _plain(block)
-            if not read:
-                return
-
-
-def _plain(block: bytes) -> bytes | None:
-    arr = np.frombuffer(block, dtype=np.uint8)
-    if np.count_nonzero(arr < 32) != block.count(b"\n") + block.count(b"\t") \
-            or b"\x7f" in block:
-        return None  # NUL, carriage return and other control characters
-    if arr.max(initial=0) >= 0x80 and any(s in block for s in _MAYBE_SPACE):
-        return None
-    if b"\t" in block:
-        block = block.replace(b"\t", b" ")
-    if b"  " in block or b" \n" in block or b"\n " in block or block[:1] == b" " \
-            or block[-1:] == b" ":
-        block = _SPACES.sub(b" ", block).replace(b" \n", b"\n").replace(b"\n ", b"\n")
-        block = block.strip(b" ")
-    return block
-
-
-def _parse(block: bytes | None) -> Any:
-    """pyarrow table (qid, item, score) of a plain block, None when a value is not
-    what the careful reader would accept as is."""
-    if block is None:
-        return None
+def _parse(source: Any) -> Any:
+    """pyarrow table (qid, item, score, tag) of a file or buffer of lines of six fields
+    joined by single spaces; None when a line or value is not what the careful reader
+    would read the same way."""
     import pyarrow as pa
     from pyarrow import csv
 
     text = pa.dictionary(pa.int32(), pa.string())
     try:
         table = csv.read_csv(
-            pa.BufferReader(block),
+            source if isinstance(source, Path) else pa.BufferReader(source),
             csv.ReadOptions(column_names=list(_RUN_FIELDS), block_size=PARSE_BLOCK),
             csv.ParseOptions(delimiter=" ", quote_char=False, double_quote=False,
                              escape_char=False, ignore_empty_lines=True),
-            csv.ConvertOptions(column_types={"qid": text, "item": text, "rank": pa.int64(),
-                                             "score": pa.float64()},
-                               include_columns=["qid", "item", "rank", "score"],
+            csv.ConvertOptions(column_types={"qid": text, "q0": text, "item": text,
+                                             "rank": text, "score": pa.float64(),
+                                             "tag": text},
                                null_values=[], strings_can_be_null=False, check_utf8=True))
     except pa.ArrowInvalid:
         return None  # a field count, number or encoding the careful reader will locate
-    return table.drop_columns(["rank"])  # parsed as whole numbers is all that is needed
+    if not _whole_ranks(table["rank"]):
+        return None
+    table = table.drop_columns(["q0", "rank"]).unify_dictionaries()  # parsed is all we need
+    for name in ("qid", "item", "tag"):
+        if table.num_rows and not _plain_words(table[name].chunk(0).dictionary):
+            return None
+    return table
+
+
+def _whole_ranks(column: Any) -> bool:
+    """Every distinct rank is a whole number by ``trawl.numbers``' grammar (pyarrow's
+    own integer parser also takes hexadecimal such as 0x1F)."""
+    from .numbers import WHOLE
+
+    return all(WHOLE.fullmatch(v) for c in column.chunks for v in c.dictionary.to_pylist())
+
+
+def _plain_words(values: Any) -> bool:
+    """No whitespace or control character in any of ``values`` (a pyarrow StringArray),
+    so one space between fields split them exactly as str.split() does."""
+    offsets = np.frombuffer(values.buffers()[1], dtype=np.int32)[values.offset:]
+    data = bytes(values.buffers()[2] or b"")[offsets[0]:offsets[len(values)]]
+    if np.count_nonzero(np.frombuffer(data, dtype=np.uint8) <= 32):
+        return False
+    return data.isascii() or not any(s in data for s in _SUSPECT)
+
+
+def _parse_normalised(path: Path) -> Any:
+    """``_parse`` of the file after runs of spaces and tabs become one space (so files
+    aligned with tabs or padding still read as columns), a block of lines at a time."""
+    import pyarrow as pa
+
+    tables = []
+    with path.open("rb") as fh:
+        rest = b""
+        while True:
+            read = fh.read(SCAN_BLOCK)
+            data = rest + read
+            cut = data.rfind(b"\n") + 1 if read else len(data)
+            block, rest = data[:cut], data[cut:]
+            if block:
+                block = _SPACES.sub(b" ", block.replace(b"\t", b" "))
+                block = block.replace(b" \n", b"\n").replace(b"\n ", b"\n").strip(b" ")
+                table = _parse(block)
+                if table is None:
+                    return None
+                tables.append(table)
+            if not read:
+                break
+    return pa.concat_tables(tables).unify_dictionaries() if tables else None
 
 
 def _numpy(column: Any) -> np.ndarray:
-    chunks = [c.to_numpy(zero_copy_only=False) for c in column.chunks]
-    return chunks[0] if len(chunks) == 1 else np.concatenate(chunks)
+    """One numpy array of a chunked float64 or int32 column without nulls."""
+    chunks = column.chunks
+    if len(chunks) == 1:
+        return _view(chunks[0])
+    out = np.empty(len(column), dtype=_view(chunks[0]).dtype)
+    at = 0
+    for c in chunks:
+        out[at:at + len(c)] = _view(c)
+        at += len(c)
+    return out
+
+
+def _view(array: Any) -> np.ndarray:
+    """The values buffer of a fixed-width pyarrow array, without a copy."""
+    dtype = np.dtype(np.float64 if str(array.type) == "double" else np.int32)
+    return np.frombuffer(array.buffers()[1], dtype=dtype)[array.offset:array.offset + len(array)]
 
 
 def _codes(column: Any) -> tuple[np.ndarray, Any]:
     """int32 codes and the dictionary of a unified dictionary column."""
-    chunks = column.chunks
-    codes = [c.indices.to_numpy(zero_copy_only=False) for c in chunks]
-    return (codes[0] if len(codes) == 1 else np.concatenate(codes)), chunks[0].dictionary
+    import pyarrow as pa
+
+    indices = pa.chunked_array([c.indices for c in column.chunks], type=pa.int32())
+    return _numpy(indices), column.chunk(0).dictionary
 
 
 def _rank_ordered(qid_values: Any, queries: np.ndarray, codes: np.ndarray,
@@ -238,16 +254,17 @@ def _put_in_rank_order(queries: np.ndarray, codes: np.ndarray, scores: np.ndarra
     scores or ties out of item order are sorted.
     """
     same = queries[1:] == queries[:-1]
-    rank = item_rank[codes]
-    in_order = (scores[:-1] > scores[1:]) | ((scores[:-1] == scores[1:]) & (rank[:-1] > rank[1:]))
-    bad = np.flatnonzero(same & ~in_order)
+    tied = np.flatnonzero(same & (scores[:-1] == scores[1:]))
+    tied = tied[item_rank[codes[tied]] < item_rank[codes[tied + 1]]]
+    bad = np.concatenate((np.flatnonzero(same & (scores[:-1] < scores[1:])), tied))
+    del same, tied
     if bad.size == 0:
         return codes, scores
     codes, scores = np.array(codes), np.array(scores)  # writable copies of arrow memory
     wrong = np.zeros(int(queries[-1]) + 1, dtype=bool)
     wrong[queries[bad]] = True
     rows = np.flatnonzero(wrong[queries])
-    order = np.lexsort((-rank[rows], -scores[rows], queries[rows]))
+    order = np.lexsort((-item_rank[codes[rows]], -scores[rows], queries[rows]))
     codes[rows] = codes[rows[order]]
     scores[rows] = scores[rows[order]]
     return codes, scores

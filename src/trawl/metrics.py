@@ -28,6 +28,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from .columns import RankedColumns, judged_gains
 from .errors import UsageError
 from .runs import Run
 
@@ -110,7 +111,21 @@ def ranked_gains(qrels: Mapping[str, Mapping[str, int]], run: Run,
                  depth: int | None = None) -> RankedGains:
     """Look up the grade of every ranked item, keeping ``depth`` ranks (None: all)."""
     qids = list(qrels)
-    results = run.results
+    if isinstance(run.results, RankedColumns):
+        gains = _column_gains(qrels, qids, run.results, depth)
+    else:
+        gains = _tuple_gains(qrels, qids, run.results, depth)
+    grades = [sorted((g for g in qrels[q].values() if g > 0), reverse=True) for q in qids]
+    ideal = np.zeros((len(qids), max((len(g) for g in grades), default=0) or 1))
+    for i, g in enumerate(grades):
+        ideal[i, :len(g)] = g
+    relevant = np.fromiter((len(g) for g in grades), dtype=np.float64, count=len(grades))
+    return RankedGains(gains, relevant, ideal)
+
+
+def _tuple_gains(qrels: Mapping[str, Mapping[str, int]], qids: list[str],
+                 results: Mapping[str, Sequence[tuple[str, float]]],
+                 depth: int | None) -> np.ndarray:
     rankings = [results.get(qid, ()) for qid in qids]
     longest = max(map(len, rankings), default=0)
     width = longest if depth is None else min(depth, longest)
@@ -120,12 +135,16 @@ def ranked_gains(qrels: Mapping[str, Mapping[str, int]], run: Run,
             row = list(map(qrels[qid].get, map(itemgetter(0), pairs[:width]), repeat(0)))
             gains[i, :len(row)] = row
     np.maximum(gains, 0.0, out=gains)
-    grades = [sorted((g for g in qrels[q].values() if g > 0), reverse=True) for q in qids]
-    ideal = np.zeros((len(qids), max((len(g) for g in grades), default=0) or 1))
-    for i, g in enumerate(grades):
-        ideal[i, :len(g)] = g
-    relevant = np.fromiter((len(g) for g in grades), dtype=np.float64, count=len(grades))
-    return RankedGains(gains, relevant, ideal)
+    return gains
+
+
+def _column_gains(qrels: Mapping[str, Mapping[str, int]], qids: list[str],
+                  results: RankedColumns, depth: int | None) -> np.ndarray:
+    """The same matrix from a run read into columns, without a tuple per line."""
+    where = [results.position(q) for q in qids]
+    lengths = np.diff(results.offsets)
+    longest = max((int(lengths[w]) for w in where if w >= 0), default=0)
+    return judged_gains(qrels, qids, results, longest if depth is None else min(depth, longest))
 
 
 # --- kernels: each maps RankedGains and a cutoff to one score per query --------------------
