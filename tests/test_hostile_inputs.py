@@ -363,7 +363,8 @@ def test_qrels_round_trip(scratch, qrels):
 
 @SETTINGS
 @given(results=st.dictionaries(plain, st.dictionaries(
-    plain, st.floats(allow_nan=False), min_size=1, max_size=4), min_size=1, max_size=4))
+    plain, st.floats(allow_nan=False, allow_infinity=False), min_size=1, max_size=4),
+    min_size=1, max_size=4))
 def test_runs_round_trip_exact_scores(scratch, results):
     path = scratch / "rt.run"
     run = make_run("tag", {q: d.items() for q, d in results.items()})

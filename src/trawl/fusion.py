@@ -10,7 +10,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 from .errors import UsageError
-from .runs import Run, rank_order
+from .runs import Run, check_run_name, rank_order
 
 RRF_K = 60  # the constant used in the original paper
 
@@ -25,6 +25,8 @@ def reciprocal_rank_fusion(runs: Sequence[Run], k: int = RRF_K, depth: int | Non
         raise UsageError(f"RRF k={k} must be >= 0")
     if depth is not None and depth < 1:
         raise UsageError(f"depth={depth} must be >= 1")
+    if name is not None:
+        check_run_name(name)
     qids = list(dict.fromkeys(q for run in runs for q in run.results))
     fused: dict[str, tuple[tuple[str, float], ...]] = {}
     for qid in qids:

@@ -1,4 +1,7 @@
-"""Relevance judgments (qrels) in TREC format: ``qid 0 item_id grade``."""
+"""Relevance judgments (qrels) in TREC format: ``qid 0 item_id grade``.
+
+Grades are whole numbers by the grammar in ``numbers`` that the run reader uses too.
+"""
 
 from __future__ import annotations
 
@@ -7,6 +10,7 @@ from pathlib import Path
 
 from .errors import InputError
 from .files import atomic_write, read_text
+from .numbers import WHOLE_FORMS, parse_whole
 
 Qrels = dict[str, dict[str, int]]  # qid -> item id -> grade
 
@@ -26,11 +30,10 @@ def read_qrels(path: str | Path) -> Qrels:
             raise InputError(path, f"expected 4 fields 'qid 0 item_id grade', got {len(parts)}",
                              line=n)
         qid, _, item, grade_s = parts
-        try:
-            grade = int(grade_s)
-        except ValueError:
-            raise InputError(path, f"grade {grade_s!r} is not a whole number", line=n,
-                             field="grade") from None
+        grade = parse_whole(grade_s)
+        if grade is None:
+            raise InputError(path, f"grade {grade_s!r} is not a whole number; write "
+                             f"{WHOLE_FORMS}", line=n, field="grade")
         key = (qid, item)
         if key in first:
             raise InputError(path, f"duplicate judgment for query {qid!r}, item {item!r} "

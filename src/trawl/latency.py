@@ -27,7 +27,7 @@ import numpy as np
 
 from .errors import UsageError
 from .fusion import RRF_K, reciprocal_rank_fusion
-from .runs import Run
+from .runs import Run, check_run_name
 
 if TYPE_CHECKING:
     from .index import Index
@@ -100,6 +100,8 @@ def measure_search(index: Index, queries: Mapping[str, str], k: int = 100,
     ``threads`` compute threads (None: whatever is in force)."""
     if warmup < 0:
         raise UsageError(f"warm-up count {warmup} must be >= 0")
+    if name is not None:
+        check_run_name(name)  # before the work, not when the run is written
     index.check_k(k)
     if not queries:
         raise UsageError("no queries to time")

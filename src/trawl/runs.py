@@ -1,5 +1,8 @@
 """Runs in TREC format: ``qid Q0 item_id rank score tag``.
 
+Ranks are whole numbers and scores finite decimal or exponent numbers, by the grammar
+in ``numbers`` that the qrels reader uses too.
+
 Ranking order everywhere in trawl is the one trec_eval uses: score descending, ties
 broken by item id descending. Runs we write list items in that order, so a file's
 rank column and its scores never disagree.
@@ -15,8 +18,10 @@ from dataclasses import dataclass
 from operator import itemgetter
 from pathlib import Path
 
-from .errors import InputError
+from .errors import InputError, UsageError
+from .ids import is_valid_id
 from .files import atomic_write, read_text
+from .numbers import SCORE_FORMS, WHOLE_FORMS, parse_score, parse_whole
 
 
 @dataclass(frozen=True)
@@ -77,18 +82,13 @@ def _read_lines(path: str | Path, text: str, name: str | None) -> Run:
             raise InputError(path, f"expected 6 fields 'qid Q0 item_id rank score tag', "
                              f"got {len(parts)}", line=n)
         qid, _, item, rank_s, score_s, t = parts
-        try:
-            score = float(score_s)
-        except ValueError:
-            raise InputError(path, f"score {score_s!r} is not a number", line=n,
-                             field="score") from None
-        if math.isnan(score):
-            raise InputError(path, "score is NaN", line=n, field="score")
-        try:
-            int(rank_s)
-        except ValueError:
-            raise InputError(path, f"rank {rank_s!r} is not a whole number", line=n,
-                             field="rank") from None
+        score = parse_score(score_s)
+        if score is None:
+            raise InputError(path, f"score {score_s!r} is not a number trawl reads; write "
+                             f"{SCORE_FORMS}", line=n, field="score")
+        if parse_whole(rank_s) is None:
+            raise InputError(path, f"rank {rank_s!r} is not a whole number; write "
+                             f"{WHOLE_FORMS}", line=n, field="rank")
         key = (qid, item)
         if key in first:
             raise InputError(path, f"duplicate entry for query {qid!r}, item {item!r} "
@@ -123,8 +123,26 @@ def name_from_path(path: str | Path) -> str:
     return "_".join(Path(path).name.split(".")[0].split()) or "run"
 
 
+def check_run_name(name: str) -> None:
+    """Refuse a name that cannot be the tag field of a run line (it must read back as
+    one field, the same name)."""
+    if is_valid_id(name) and name.isprintable():
+        return
+    fixed = "".join(c if c.isprintable() and not c.isspace() else "_" for c in name)
+    raise UsageError(f"run name {name!r} cannot be the tag of a TREC run line, which must be "
+                     f"one field without white space or control characters; use e.g. "
+                     f"{(fixed or 'run')!r}")
+
+
 def write_run(path: str | Path, run: Run) -> None:
+    """Write ``run`` as TREC lines; a name or score the readers would refuse is refused
+    and nothing is written."""
+    check_run_name(run.name)
     with atomic_write(path) as fh:
         for qid, pairs in run.results.items():
             for rank, (item, score) in enumerate(pairs, start=1):
-                fh.write(f"{qid} Q0 {item} {rank} {float(score)!r} {run.name}\n")
+                value = float(score)
+                if not math.isfinite(value):
+                    raise UsageError(f"run {run.name!r}: query {qid!r}, item {item!r} has "
+                                     f"score {value}; run files hold {SCORE_FORMS}")
+                fh.write(f"{qid} Q0 {item} {rank} {value!r} {run.name}\n")
