@@ -7,13 +7,13 @@ text template can use it. Validation errors name file, line (or row) and field.
 
 from __future__ import annotations
 
+import ast
 import csv
 import hashlib
 import io
 import json
 import math
 import re
-import string
 import sys
 from collections import Counter
 from collections.abc import Iterable, Mapping, Sequence
@@ -25,13 +25,13 @@ from typing import Any
 from .errors import CatalogueError, UsageError
 from .files import decode_utf8
 from .ids import is_valid_id
+from .texttemplate import TextTemplate, check_template
 
 REQUIRED = ("id", "type", "title")
 KNOWN = ("id", "type", "title", "text", "deeplink", "related", "tags")
 FORMATS = {".jsonl": "jsonl", ".ndjson": "jsonl", ".csv": "csv", ".parquet": "parquet",
            ".pq": "parquet"}
-DEFAULT_TEMPLATE = "{title}\n{text}"
-LIST_SEPARATOR = "|"  # CSV cells for related/tags: "a|b|c" or a JSON array
+LIST_SEPARATOR = "|"  # CSV related/tags: "a|b|c", a JSON array or a Python list
 CSV_FIELD_LIMIT = 2**31 - 1  # the csv module's 128 KiB default rejects long texts
 _SURROGATE = re.compile("[\ud800-\udfff]")
 
@@ -64,40 +64,6 @@ class Item:
         return {"id": self.id, "type": self.type, "title": self.title, "text": self.text,
                 "deeplink": self.deeplink, "related": list(self.related),
                 "tags": list(self.tags), "meta": _jsonable(dict(self.meta))}
-
-
-class _Missing(dict):
-    def __missing__(self, key: str) -> str:
-        return ""
-
-
-@dataclass(frozen=True)
-class TextTemplate:
-    """How an item becomes the text it is embedded (and BM25-indexed) with.
-
-    A ``str.format`` pattern over item fields; unknown fields render empty so one
-    template serves items of every type. Surrounding blank lines are stripped.
-    """
-
-    pattern: str = DEFAULT_TEMPLATE
-
-    def __post_init__(self) -> None:
-        try:
-            names = [f for _, f, _, _ in string.Formatter().parse(self.pattern) if f is not None]
-        except ValueError as exc:
-            raise UsageError(f"text template {self.pattern!r} is not valid: {exc}") from None
-        for name in names:
-            if not name.isidentifier():
-                raise UsageError(
-                    f"text template {self.pattern!r}: field {{{name}}} must be a plain field "
-                    "name such as {title}, {text}, {type} or a metadata field")
-        if not names:
-            raise UsageError(f"text template {self.pattern!r} uses no fields; "
-                             "use e.g. '{title}\\n{text}'")
-
-    def render(self, item: Item) -> str:
-        text = self.pattern.format_map(_Missing(item.fields()))
-        return "\n".join(line.strip() for line in text.strip().splitlines() if line.strip())
 
 
 @dataclass(frozen=True)
@@ -143,7 +109,10 @@ class Catalogue:
         return h.hexdigest()[:16]
 
     def with_template(self, pattern: str) -> Catalogue:
-        return Catalogue(self.path, self.items, TextTemplate(pattern))
+        """The same items under another template, refused if it names a field no item has."""
+        template = TextTemplate(pattern)
+        check_template(template, [it.fields() for it in self.items], self.path)
+        return Catalogue(self.path, self.items, template)
 
 
 def load_catalogue(path: str | Path, template: str | None = None) -> Catalogue:
@@ -178,8 +147,9 @@ def load_catalogue(path: str | Path, template: str | None = None) -> Catalogue:
     items = _validate(path, records, fmt)
     if not items:
         raise CatalogueError(path, "catalogue has no items")
-    return Catalogue(str(path), tuple(items),
-                     TextTemplate(template) if template is not None else TextTemplate())
+    pattern = TextTemplate(template) if template is not None else TextTemplate()
+    check_template(pattern, [it.fields() for it in items], path)
+    return Catalogue(str(path), tuple(items), pattern)
 
 
 # --- readers: each yields (line_or_row, dict) -------------------------------------------
@@ -235,7 +205,7 @@ def _csv_records(path: Path, text: str) -> Iterable[tuple[int, dict]]:
         if col not in header:
             raise CatalogueError(path, f"missing column {col!r}; the header must name "
                                  f"{', '.join(REQUIRED)}", line=1, field="header")
-    dupes = [h for h, c in Counter(header).items() if c > 1]
+    dupes = [h for h, c in Counter(header).items() if c > 1 and h]
     if dupes:
         raise CatalogueError(path, f"column {dupes[0]!r} appears twice", line=1, field="header")
     start = 2
@@ -252,8 +222,9 @@ def _csv_records(path: Path, text: str) -> Iterable[tuple[int, dict]]:
         if len(row) != len(header):
             raise CatalogueError(path, f"expected {len(header)} cells as in the header, "
                                  f"got {len(row)}", line=line)
-        # an empty optional cell is an absent field; an empty required one is "empty"
-        rec = {h: v for h, v in zip(header, row) if v != "" or h in REQUIRED}
+        # an empty optional cell is an absent field; an empty required one is "empty";
+        # a nameless column (the row index pandas writes) is no field at all
+        rec = {h: v for h, v in zip(header, row) if h and (v != "" or h in REQUIRED)}
         for key in ("related", "tags"):
             if key in rec:
                 rec[key] = _split_cell(path, line, key, rec[key])
@@ -261,10 +232,36 @@ def _csv_records(path: Path, text: str) -> Iterable[tuple[int, dict]]:
 
 
 def _split_cell(path: Path, line: int, key: str, cell: str) -> list[str] | Any:
+    """``a|b``, a JSON array, or the Python list ``df.to_csv`` writes (``['a', 'b']``)."""
     cell = cell.strip()
     if cell.startswith("["):
+        if "'" in cell:
+            python = _python_str_list(cell)
+            if python is not None:
+                return python
         return _json_loads(path, line, cell, "malformed JSON list", field=key)
     return [p.strip() for p in cell.split(LIST_SEPARATOR) if p.strip()]
+
+
+def _python_str_list(cell: str) -> list[str] | None:
+    """A Python list literal of strings, read without evaluating anything; else None.
+
+    The cell is parsed to a syntax tree and accepted only as a list whose elements are
+    all string (or whole-number) constants, so no code in a cell can ever run.
+    """
+    try:
+        tree = ast.parse(cell, mode="eval").body
+    except (SyntaxError, ValueError, RecursionError, MemoryError):
+        return None
+    if not isinstance(tree, ast.List):
+        return None
+    out = []
+    for el in tree.elts:
+        if not isinstance(el, ast.Constant) or isinstance(el.value, bool) \
+                or not isinstance(el.value, (str, int)):
+            return None
+        out.append(str(el.value))
+    return out
 
 
 def _parquet_records(path: Path) -> Iterable[tuple[int, dict]]:
@@ -458,8 +455,8 @@ def check_catalogue(cat: Catalogue, unit: str = "tokens") -> CheckReport:
     pct = {f"p{p}": float(np.percentile(arr, p)) for p in (5, 25, 50, 75, 95)}
     pct["max"] = float(arr.max())
     warnings: list[str] = []
-    for it in cat.items:
-        words = len(f"{it.title} {it.text}".split())
+    for it, text in zip(cat.items, texts):  # the text it is indexed with, template applied
+        words = len(text.split())
         if words <= NEAR_EMPTY_WORDS:
             warnings.append(f"{cat.path}:{it.line}: near-empty item {it.id!r} "
                             f"({words} words); it will rarely be found")
