@@ -50,7 +50,8 @@ def stages(files: dict) -> dict[str, float]:
     from trawl.catalogue import load_catalogue
     from trawl.judgments import read_qrels
     from trawl.runs import read_run
-    from trawl.scores import render_scores, score_runs
+    from trawl.report.text import scores as render_scores
+    from trawl.scores import score_runs
 
     out = {"imports": time.process_time() - t}
     t = time.process_time()
@@ -63,7 +64,7 @@ def stages(files: dict) -> dict[str, float]:
     cat = load_catalogue(files["catalogue"])
     out["load catalogue"] = time.process_time() - t
     t = time.process_time()
-    render_scores(score_runs(qrels, [run], ["ndcg@10", "mrr@10", "recall@100"], cat))
+    render_scores(score_runs(qrels, [run], ["ndcg@10", "mrr@10", "recall@100"], cat).as_dict())
     out["score + per type + render"] = time.process_time() - t
     return out
 

@@ -30,7 +30,7 @@ from .catalogue import Catalogue, Item
 from .destinations import TYPE_RULE, query_types
 from .errors import UsageError
 from .judgments import Qrels
-from .privacy import describe_counts, scrub_texts
+from .privacy import scrub_texts
 from .runs import Run
 from .scores import run_warnings
 
@@ -210,54 +210,3 @@ def miss_table(qrels: Qrels, run: Run, catalogue: Catalogue, k: int = 10, worst:
 
 CSV_COLUMNS = ("type", "queries", "hit_at_1", "hit_at_k", "misses", "median_rank", "not_found",
                "lost", "lost_to")
-
-
-def render_misses(rep: MissReport, max_warnings: int = 20) -> str:
-    """Terminal view: the per-type table, what came first instead, the worst queries."""
-    from .report import format as fmt
-    from .scores import warning_lines
-    from .tables import text_table
-
-    k = rep.k
-    out = [f"run {rep.run}: misses by destination type of the wanted item (k={k})"]
-    hit_k = [f"hit@{k}"] if k > 1 else []
-    out.append(text_table(
-        ["type", "queries", "hit@1", *hit_k, f"missed top {k}", "median first rank",
-         "never found"],
-        [[r.type, r.queries, fmt.share(r.hit_at_1), *([fmt.share(r.hit_at_k)] if hit_k else []),
-          r.misses,
-          fmt.num(r.median_rank, 1) if r.median_rank is not None else "not found",
-          r.not_found] for r in rep.rows]))
-    winners = sorted({t for r in rep.rows for t in r.lost_to},
-                     key=lambda t: (t in (NO_RESULTS, UNKNOWN_ITEM), t))
-    if winners:
-        out.append("")
-        out.append("what came first instead, when the rank-1 item was not relevant "
-                   "(share of those queries)")
-        out.append(text_table(["type", "queries", *winners],
-                              [[r.type, r.lost, *(fmt.share(r.lost_to[w]) if w in r.lost_to
-                                                  else "" for w in winners)]
-                               for r in rep.rows]))
-    out.append("")
-    out.append(rep.headline)
-    if rep.worst:
-        out.append("")
-        out.append("worst queries per type (wanted item ranked lowest):")
-        current = None
-        for w in rep.worst:
-            if w.type != current:
-                current = w.type
-                out.append(f"  {current}")
-            where = f"at rank {w.rank}" if w.rank is not None else "not retrieved"
-            asked = f" \"{w.query}\"" if w.query else ""
-            out.append(f"    {w.qid}{asked}: wanted {w.wanted.id} ({w.wanted.title!r}) {where}")
-            if w.winner is None:
-                out.append("      first instead: nothing retrieved")
-            else:
-                out.append(f"      first instead: {w.winner.id} [{w.winner.type}] "
-                           f"({w.winner.title!r})")
-    out.append(f"per type: {TYPE_RULE}")
-    if rep.scrubbed is not None:
-        out.append(f"scrubbed from query text: {describe_counts(rep.scrubbed)}")
-    out.extend(warning_lines(rep.warnings, max_warnings))
-    return "\n".join(out)

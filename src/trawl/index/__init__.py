@@ -12,7 +12,7 @@ searches them; the names below are the package's public face.
 
 from .build import DEFAULT_BATCH_SIZE, HnswParams, build_index
 from .manifest import ANN_KINDS, IndexInfo, read_manifest
-from .search import Index, open_index, retrieve
+from .search import Index, open_index, open_recorded, retrieve
 
 __all__ = ["ANN_KINDS", "DEFAULT_BATCH_SIZE", "HnswParams", "Index", "IndexInfo", "build_index",
-           "open_index", "read_manifest", "retrieve"]
+           "open_index", "open_recorded", "read_manifest", "retrieve"]

@@ -11,7 +11,7 @@ from typing import Any
 
 import numpy as np
 
-from ..catalogue import Catalogue
+from ..catalogue import Catalogue, load_catalogue
 from ..embedcache import default_cache_dir
 from ..errors import EncoderMismatchError, InputError, StaleIndexError, UsageError
 from ..progress import progress
@@ -47,6 +47,18 @@ def open_index(out_dir: str | Path, catalogue: Catalogue | None = None,
     if catalogue is not None:
         _refuse_stale(folder, manifest, catalogue, built)
     return Index(folder, manifest, built, loader or default_loader())
+
+
+def open_recorded(out_dir: str | Path, catalogue: str | Path | None = None
+                  ) -> tuple[Index, str | None]:
+    """Open an index checked against ``catalogue`` or, by default, the catalogue file it
+    was built from. The second value is that recorded path when the file is gone and the
+    index could not be checked (None otherwise)."""
+    manifest = read_manifest(out_dir)
+    recorded = manifest["catalogue"]["path"]
+    path = catalogue or (recorded if Path(recorded).is_file() else None)
+    cat = load_catalogue(path, manifest["catalogue"]["template"]) if path else None
+    return open_index(out_dir, cat), None if path else recorded
 
 
 def _refuse_stale(folder: Path, manifest: Mapping[str, Any], catalogue: Catalogue,
