@@ -8,7 +8,7 @@ STAMP := $(VENV)/.installed
 export HF_HUB_OFFLINE := 1
 export TRANSFORMERS_OFFLINE := 1
 
-.PHONY: demo test install system-deps bench
+.PHONY: demo test install wordnet browser bench
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -19,20 +19,28 @@ $(STAMP): pyproject.toml
 
 install: $(STAMP)
 
-# Optional system packages: Chromium (browser test of the HTML report) and WordNet
-# (paraphrase query style). Installed when we are root on a Debian-like system;
-# otherwise the dependent tests skip and say why.
-system-deps:
+# Optional system packages, installed only when we are root on a Debian-like system
+# (otherwise the dependent parts skip and say why):
+#   wordnet-base  WordNet for the paraphrase query style (`make demo` and `make test`)
+#   chromium      the browser test of the HTML report (`make test` only)
+define apt_install
 	@if [ "$$(id -u)" = 0 ] && command -v apt-get >/dev/null; then \
-	  (dpkg -s chromium wordnet-base >/dev/null 2>&1) || \
-	  (apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium wordnet-base >/dev/null) || \
-	  echo "note: could not install chromium/wordnet-base; browser and WordNet tests will skip"; \
-	else echo "note: not root or no apt-get; install chromium and wordnet-base yourself for the full suite"; fi
+	  (dpkg -s $(1) >/dev/null 2>&1) || \
+	  (apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq $(1) >/dev/null) || \
+	  echo "note: could not install $(1); $(2)"; \
+	else echo "note: not root or no apt-get; install $(1) yourself ($(2))"; fi
+endef
 
-demo: $(STAMP) system-deps
+wordnet:
+	$(call apt_install,wordnet-base,the paraphrase query style and its tests need it)
+
+browser: wordnet
+	$(call apt_install,chromium,the browser test of the HTML report skips without it)
+
+demo: $(STAMP) wordnet
 	$(VENV)/bin/trawl demo -o demo-out
 
-test: $(STAMP) system-deps
+test: $(STAMP) wordnet browser
 	$(PY) -m pytest -q --durations=15
 
 bench: $(STAMP)
