@@ -26,6 +26,7 @@ import numpy as np
 
 from ..catalogue import Catalogue
 from ..embedcache import EmbeddingCache, default_cache_dir, text_key
+from ..engines import Engine, LocalEngine
 from ..errors import TrawlError, UsageError
 from ..files import atomic_write
 from ..progress import progress
@@ -58,22 +59,25 @@ class HnswParams:
 def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Path, *,
                 ann: str = "exact", cache_dir: str | Path | None = None,
                 batch_size: int = DEFAULT_BATCH_SIZE, quiet: bool = False,
-                hnsw: HnswParams | None = None, loader: EncoderLoader | None = None) -> IndexInfo:
+                hnsw: HnswParams | None = None, loader: EncoderLoader | None = None,
+                engine: Engine | None = None) -> IndexInfo:
     """Build (or incrementally update) the index of ``catalogue`` with encoder ``spec``
-    (parsed already, or a spec string parsed here)."""
+    (parsed already, or a spec string parsed here); ``engine`` says where texts are
+    embedded (default: this process)."""
     enc_spec = as_spec(spec)
     if ann not in ANN_KINDS:
         raise UsageError(f"ann={ann!r} is not one of: {', '.join(ANN_KINDS)}")
     if enc_spec.lexical and ann != "exact":
-        raise UsageError(f"--ann {ann} applies to dense encoders; bm25 searches its own "
+        raise UsageError(f"ann={ann!r} applies to dense encoders; bm25 searches its own "
                          "inverted index exactly")
     if hnsw is not None and ann != "hnsw":
-        raise UsageError("HNSW parameters were given but --ann is not hnsw; add --ann hnsw")
+        raise UsageError("HNSW parameters were given but the search is not hnsw; ask for ann='hnsw'")
     if batch_size < 1:
         raise UsageError(f"batch size {batch_size} must be >= 1")
     out = Path(out_dir)
     _refuse_foreign(out)
     loader = loader or default_loader()
+    engine = engine or LocalEngine()
     cache_root = Path(cache_dir) if cache_dir is not None else default_cache_dir()
     with _build_lock(out):
         _recover_leftovers(out)
@@ -88,13 +92,14 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
             else:
                 encoder = loader.encoder(enc_spec)
                 fingerprint = encoder.fingerprint
-                vectors, embedded = _embed(catalogue, encoder, cache_root, batch_size, quiet)
+                vectors, embedded = _embed(catalogue, encoder, cache_root, batch_size, quiet,
+                                           engine)
                 dim = int(vectors.shape[1])
                 ann_params = _write_dense(vectors, ann, hnsw or HnswParams(), tmp)
             _write_ids(tmp / IDS, catalogue.ids)
             seconds = time.perf_counter() - start
             manifest = make_manifest(catalogue, enc_spec, fingerprint, dim, ann, ann_params,
-                                     embedded, seconds)
+                                     embedded, seconds, engine.name)
             write_json(tmp / MANIFEST, manifest)
             _swap_into_place(tmp, out)
         finally:
@@ -103,7 +108,7 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
 
 
 def _embed(catalogue: Catalogue, encoder, cache_root: Path, batch_size: int,
-           quiet: bool) -> tuple[np.ndarray, int]:
+           quiet: bool, engine: Engine) -> tuple[np.ndarray, int]:
     """Vectors in catalogue order, embedding only texts the cache lacks.
 
     Missing texts are embedded in a fixed order (length, then hash) and committed per
@@ -138,10 +143,10 @@ def _embed(catalogue: Catalogue, encoder, cache_root: Path, batch_size: int,
                       key=lambda k: (int(length[first[k]]), k))
         del unique, found
         with progress(len(todo), "embedding", quiet, unit="text") as bar:
-            for s in range(0, len(todo), EMBED_CHUNK):
-                chunk = todo[s:s + EMBED_CHUNK]
-                texts = [template.render(items[first[k]]) for k in chunk]
-                vectors = encoder.encode_documents(texts, batch_size)
+            chunks = [todo[s:s + EMBED_CHUNK] for s in range(0, len(todo), EMBED_CHUNK)]
+            texts = ([template.render(items[first[k]]) for k in chunk] for chunk in chunks)
+            encoded = engine.encode_chunks(encoder.spec, encoder, texts, batch_size)
+            for chunk, vectors in zip(chunks, encoded):
                 cache.put(chunk, vectors)
                 store.fill(chunk, vectors)
                 bar.update(len(chunk))

@@ -72,7 +72,8 @@ def read_manifest(folder: str | Path) -> dict[str, Any]:
 
 
 def make_manifest(catalogue: Catalogue, spec: EncoderSpec, fingerprint: str, dim: int, ann: str,
-              ann_params: dict, embedded: int, seconds: float) -> dict[str, Any]:
+              ann_params: dict, embedded: int, seconds: float,
+              engine: str = "local") -> dict[str, Any]:
     packages = (["bm25s"] if spec.lexical else
                 ["model2vec"] if spec.kind == "static" else
                 ["torch", "transformers", "sentence-transformers"])
@@ -88,7 +89,7 @@ def make_manifest(catalogue: Catalogue, spec: EncoderSpec, fingerprint: str, dim
         "versions": {"trawl": __version__, **{p: package_version(p) for p in packages}},
         # the only part that differs between two builds of the same inputs
         "build": {"created_at": datetime.now(timezone.utc).isoformat(timespec="seconds"),
-                  "embedded": embedded, "reused": len(catalogue) - embedded,
+                  "engine": engine, "embedded": embedded, "reused": len(catalogue) - embedded,
                   "seconds": round(seconds, 3),
                   "items_per_s": round(len(catalogue) / seconds, 1) if seconds > 0 else 0.0},
     }
