@@ -1,6 +1,6 @@
 # Two entry points for a fresh machine: `make demo` and `make test`.
 # Both create .venv, install the CPU build of torch first (so nothing pulls a GPU build),
-# then the package with its test extras.
+# then the package with its test extras and Ray (so the ray engine's tests run).
 PYTHON ?= python3
 VENV ?= .venv
 PY := $(VENV)/bin/python
@@ -14,7 +14,7 @@ $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install -q --upgrade pip
 	$(PY) -m pip install -q torch==2.13.0
-	$(PY) -m pip install -q -e '.[test]'
+	$(PY) -m pip install -q -e '.[test,ray]'
 	touch $(STAMP)
 
 install: $(STAMP)
