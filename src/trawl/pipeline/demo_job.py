@@ -2,17 +2,17 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from pathlib import Path
 
 from ..catalogue import check_catalogue, load_catalogue
 from ..errors import TrawlError
 from ..latency import check_threads
 from .evaluation import DEFAULT_RESAMPLES, EvalResult, evaluate
+from .searching import Notify
 from .sets import JudgmentSet
 from .systems import plan_systems
 
-Notify = Callable[[str], None]
 DEMO_CATALOGUE = Path("corpora/quillfern.jsonl")
 DEMO_GOLD_QUERIES = Path("qrels/quillfern-gold.queries.tsv")
 DEMO_GOLD_QRELS = Path("qrels/quillfern-gold.qrels")

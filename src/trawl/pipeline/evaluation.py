@@ -5,7 +5,7 @@ report.html into one folder. Each step below is one named function."""
 from __future__ import annotations
 
 import time
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
@@ -23,11 +23,10 @@ from .assembly import (agreement_entry, evaluation_entry, scrub_note, setup_note
                        system_entry, versions)
 from .bundle import FORMAT, AgreementInfo, CatalogueInfo, Evaluation, Results, Setup
 from .outputs import write_json, write_tables
-from .searching import Searched, merge_runs, search_set
+from .searching import Notify, Searched, merge_runs, search_set
 from .sets import JudgmentSet, LoadedSet, load_set
 from .systems import System, clean_name, plan_systems
 
-Notify = Callable[[str], None]
 DEFAULT_DEPTH = 100
 DEFAULT_RESAMPLES = 10000
 WORST_QUERIES = 5
