@@ -263,15 +263,15 @@ def test_names_are_words_the_catalogue_capitalises_inside_sentences():
     from trawl.synth.corpus import find_names
 
     items = (
-        Item("a", "faq", "Night Bus Network", "The night network runs from Harrowgate. "
-             "Buses leave Harrowgate hourly from 1 March."),
+        Item("a", "faq", "Night Bus Network", "The night network runs from Tarrowby. "
+             "Buses leave Tarrowby hourly from 1 March."),
         Item("b", "faq", "Fares from March", "Fares rise in March. Network maps show "
              "every stop. Press Continue to pay."),
-        Item("c", "faq", "Maps", "Print the network map at the Harrowgate desk."),
+        Item("c", "faq", "Maps", "Print the network map at the Tarrowby desk."),
     )
     found = find_names(Catalogue("p", items))
     # capitalised in every mid-sentence use: names
-    assert {"harrowgate", "march"} <= found
+    assert {"tarrowby", "march"} <= found
     # "Network" opens a sentence and fills a Title Case title; "Continue" is capitalised
     # once only (a button label), so neither is a name
     assert not {"network", "continue", "night", "bus", "fares"} & found

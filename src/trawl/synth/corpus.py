@@ -104,7 +104,7 @@ def build_corpus(catalogue: Catalogue, wordnet: WordNet | None = None) -> Corpus
 
 def find_names(catalogue: Catalogue) -> frozenset[str]:
     """Words (lower-cased) the catalogue capitalises in at least NAME_SHARE of their uses
-    inside a sentence: place, product and month names and acronyms ("Harrowgate", "Flex",
+    inside a sentence: place, product and month names and acronyms ("Tarrowby", "Flex",
     "March", "VAT"). Nobody types "marches" for "March" or a synonym for a product's
     name, so paraphrasing leaves them as they are. Sentence-initial words say nothing,
     and neither do Title Case titles."""
