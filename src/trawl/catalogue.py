@@ -413,6 +413,23 @@ def _jsonable(v: Any) -> Any:
 
 # --- the `check` report ---------------------------------------------------------------------
 
+def _lookalike_warnings(cat: Catalogue) -> list[str]:
+    """Ids, types and related ids that print alike but differ (``lookalike``): a qrels
+    or run line written with the other form would silently not match."""
+    from .lookalike import describe, groups, near_miss_lines
+
+    line = {it.id: it.line for it in cat.items}
+    out = [f"{cat.path}:{line[g[1]]}: item ids that look alike but differ: {describe(g)}"
+           for g in groups(cat.ids)]
+    out += [f"{cat.path}: destination types that look alike but differ, counted apart: "
+            f"{describe(g)}" for g in groups(cat.type_counts())]
+    related = dict.fromkeys(r for it in cat.items for r in it.related if r not in line)
+    out += [f"{cat.path}: related id {near} but is not the same id"
+            for near in near_miss_lines(related, line)]
+    return out
+
+
+
 @dataclass(frozen=True)
 class CheckReport:
     """What `trawl check` tells: counts per type, text lengths and warnings."""
@@ -476,6 +493,7 @@ def check_catalogue(cat: Catalogue, unit: str = "tokens") -> CheckReport:
     if over:
         warnings.append(f"{over} item(s) exceed the bundled encoder's window of "
                         f"{MAX_TOKENS} tokens; their tails are not embedded")
+    warnings += _lookalike_warnings(cat)
     return CheckReport(cat.path, len(cat), cat.fingerprint, cat.type_counts(), unit, pct,
                        over, tuple(warnings))
 

@@ -15,6 +15,7 @@ import numpy as np
 
 from .catalogue import Catalogue
 from .ids import examples
+from .lookalike import near_miss_lines
 from .judgments import Qrels
 
 TYPE_RULE = ("a query counts toward the destination type of its best-graded relevant "
@@ -51,6 +52,10 @@ def query_types(qrels: Qrels, catalogue: Catalogue
     if unknown:
         warnings.append(f"judged items not in the catalogue {catalogue.path}: "
                         f"{len(unknown)}: {examples(list(unknown))}")
+        near = near_miss_lines(unknown, by_id)
+        if near:
+            warnings.append(f"judged items that look like catalogue items but differ, so "
+                            f"they are not matched: {len(near)}: {'; '.join(near[:5])}")
     if untyped:
         warnings.append(f"queries whose best-graded items are all missing from the "
                         f"catalogue (so in no destination type): {len(untyped)}: "

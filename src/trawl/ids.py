@@ -18,6 +18,9 @@ def is_valid_id(text: str) -> bool:
 
 
 def examples(ids: Sequence[str]) -> str:
-    """``"q1, q2, q3"`` or ``"q1, q2, ... (12 in all)"``: the ids a message shows."""
-    head = ", ".join(ids[:EXAMPLES_SHOWN])
+    """``"q1, q2, q3"`` or ``"q1, q2, ... (12 in all)"``: the ids a message shows; an id
+    with invisible or combining characters is shown escaped (``lookalike.shown``)."""
+    from .lookalike import shown
+
+    head = ", ".join(map(shown, ids[:EXAMPLES_SHOWN]))
     return head if len(ids) <= EXAMPLES_SHOWN else f"{head}, ... ({len(ids)} in all)"

@@ -8,6 +8,7 @@ from pathlib import Path
 from .errors import InputError
 from .files import atomic_write, read_text
 from .ids import is_valid_id
+from .lookalike import has_visible, visible
 
 
 def read_queries(path: str | Path) -> dict[str, str]:
@@ -34,6 +35,9 @@ def read_queries(path: str | Path) -> dict[str, str]:
         q = " ".join(q.replace("\t", " ").split())
         if not q:
             raise InputError(path, f"query {qid!r} has no text", line=n, field="text")
+        if not has_visible(q):
+            raise InputError(path, f"query {qid!r} has no visible text, only {visible(q)}; "
+                             "give it words or remove the line", line=n, field="text")
         if qid in first:
             raise InputError(path, f"duplicate query id {qid!r} (first on line {first[qid]})",
                              line=n, field="qid")

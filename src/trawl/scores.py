@@ -19,6 +19,7 @@ from .catalogue import Catalogue
 from .destinations import TYPE_RULE, query_types, type_members
 from .errors import UsageError
 from .ids import examples
+from .lookalike import near_miss_lines
 from .judgments import Qrels
 from .metrics import DEFAULT_METRICS, Metric, parse_metrics, score_matrix
 from .runs import Run, read_run
@@ -43,6 +44,10 @@ def run_warnings(qrels: Qrels, run: Run, catalogue: Catalogue | None) -> list[st
     if extra:
         out.append(f"run {run.name!r}: queries not in the qrels, ignored: {len(extra)}: "
                    f"{examples(extra)}")
+        near = near_miss_lines(extra, missing)
+        if near:
+            out.append(f"run {run.name!r}: query ids that look like qrels query ids but "
+                       f"differ, so they are not matched: {len(near)}: {'; '.join(near[:5])}")
     if catalogue is not None:
         by_id = catalogue.by_id
         listed = set(map(itemgetter(0), chain.from_iterable(run.results.values())))
@@ -52,6 +57,13 @@ def run_warnings(qrels: Qrels, run: Run, catalogue: Catalogue | None) -> list[st
         if unknown:
             out.append(f"run {run.name!r}: results naming items not in the catalogue: "
                        f"{len(unknown)} (query/item): {examples(unknown)}")
+            near = near_miss_lines(dict.fromkeys(item for pairs in run.results.values()
+                                                 for item, _ in pairs if item not in by_id),
+                                   by_id)
+            if near:
+                out.append(f"run {run.name!r}: items that look like catalogue items but "
+                           f"differ, so they are not matched: {len(near)}: "
+                           f"{'; '.join(near[:5])}")
     return out
 
 

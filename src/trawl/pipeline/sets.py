@@ -8,6 +8,7 @@ from pathlib import Path
 
 from ..errors import InputError
 from ..judgments import Qrels, read_qrels
+from ..lookalike import near_miss_lines, visible
 from ..queries import read_queries
 from ..silver import describe_silver, find_provenance
 
@@ -45,9 +46,11 @@ def load_set(js: JudgmentSet) -> LoadedSet:
     qrels = read_qrels(js.qrels)
     missing = [q for q in qrels if q not in queries]
     if missing:
+        near = near_miss_lines(missing[:1], queries)
         raise InputError(js.qrels, f"{len(missing)} judged query id(s) have no text in "
-                         f"{js.queries}, e.g. {missing[0]!r}; give the queries file that "
-                         "goes with these qrels")
+                         f"{js.queries}, e.g. {visible(missing[0])}"
+                         + (f" ({near[0]})" if near else "")
+                         + "; give the queries file that goes with these qrels")
     sidecar = find_provenance(js.qrels)
     silver = js.silver if js.silver is not None else sidecar is not None
     if js.how:
