@@ -1,17 +1,27 @@
-"""Shared fixtures: paths to the bundled demo data and the Cranfield collection."""
+"""Shared fixtures: paths to the bundled demo data and the Cranfield collection, and an
+embedding cache of the session's own, so no test writes to the user's ~/.cache/trawl."""
 
 from __future__ import annotations
 
 import os
+import tempfile
 from pathlib import Path
 
 import pytest
 
 os.environ.setdefault("HF_HUB_OFFLINE", "1")
 os.environ.setdefault("TRANSFORMERS_OFFLINE", "1")
+# Set at import, before any test (or a child process it starts) looks up the cache; shared
+# by the session so a model's embeddings are computed once. Tests that need a cache of
+# their own still pass --cache-dir or set the variable themselves.
+_SESSION_CACHE = tempfile.TemporaryDirectory(prefix="trawl-test-cache-")
+os.environ["TRAWL_CACHE_DIR"] = _SESSION_CACHE.name
 
 ROOT = Path(__file__).resolve().parents[1]
-CRANFIELD = ROOT.parent / "shared" / "data" / "cranfield"
+# The public Cranfield collection in trawl's format (README: "The Cranfield checks");
+# TRAWL_CRANFIELD_DIR points the tests at a copy anywhere else.
+CRANFIELD = Path(os.environ.get("TRAWL_CRANFIELD_DIR")
+                 or ROOT.parent / "shared" / "data" / "cranfield").expanduser()
 DEMO_CATALOGUE = ROOT / "corpora" / "quillfern.jsonl"
 GOLD_QUERIES = ROOT / "qrels" / "quillfern-gold.queries.tsv"
 GOLD_QRELS = ROOT / "qrels" / "quillfern-gold.qrels"
@@ -20,7 +30,8 @@ GOLD_QRELS = ROOT / "qrels" / "quillfern-gold.qrels"
 @pytest.fixture(scope="session")
 def cranfield() -> Path:
     if not (CRANFIELD / "catalogue.jsonl").exists():
-        pytest.skip(f"Cranfield collection not found at {CRANFIELD}")
+        pytest.skip(f"Cranfield collection not found at {CRANFIELD}; see README "
+                    "(The Cranfield checks) to make it and set TRAWL_CRANFIELD_DIR")
     return CRANFIELD
 
 
