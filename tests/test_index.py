@@ -120,8 +120,8 @@ def test_refuses_to_replace_a_folder_that_is_not_an_index(tmp_path):
 
 @pytest.mark.parametrize("kwargs, message", [
     ({"ann": "ivf"}, "ann='ivf' is not one of: exact, hnsw"),
-    ({"ann": "hnsw", "spec": "bm25"}, "--ann hnsw applies to dense encoders"),
-    ({"hnsw": HnswParams()}, "HNSW parameters were given but --ann is not hnsw"),
+    ({"ann": "hnsw", "spec": "bm25"}, "ann='hnsw' applies to dense encoders"),
+    ({"hnsw": HnswParams()}, "HNSW parameters were given but the search is not hnsw"),
     ({"batch_size": 0}, "batch size 0 must be >= 1"),
 ])
 def test_conflicting_options_are_rejected_before_any_work(tmp_path, kwargs, message):

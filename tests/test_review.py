@@ -223,10 +223,10 @@ def test_two_reviewers_share_an_overlap_and_split_the_rest(world):
 
 
 @pytest.mark.parametrize("kwargs, message", [
-    ({"overlap": 0.3}, "--overlap needs --reviewers"),
+    ({"overlap": 0.3}, "an overlap needs 2 or more reviewers"),
     ({"pairs": "pooled"}, "needs at least one run"),
     ({"reviewers": 2, "overlap": 1.5}, "share of queries"),
-    ({"sample": 0}, "--sample 0"),
+    ({"sample": 0}, "sample of 0 queries"),
     ({"max_grade": 1}, "below the highest grade"),
 ])
 def test_export_rejects_conflicting_or_bad_options(world, kwargs, message):

@@ -175,7 +175,7 @@ def compute_threads() -> int:
 def check_threads(threads: int | None) -> None:
     """Refuse a thread count below 1 before any work starts."""
     if threads is not None and threads < 1:
-        raise UsageError(f"threads={threads} must be >= 1; give --threads 1 or more, or "
+        raise UsageError(f"threads={threads} must be >= 1; give 1 or more, or "
                          "leave it out for the libraries' defaults")
 
 

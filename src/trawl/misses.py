@@ -152,7 +152,7 @@ def miss_table(qrels: Qrels, run: Run, catalogue: Catalogue, k: int = 10, worst:
     keeps the counts, over every text given, as ``evaluate(scrub_queries=True)`` does.
     """
     if k < 1:
-        raise UsageError(f"k={k} must be at least 1, e.g. -k 10")
+        raise UsageError(f"k={k} must be at least 1, e.g. 10")
     if worst < 0:
         raise UsageError(f"worst={worst} must be 0 or more")
     scrubbed = None

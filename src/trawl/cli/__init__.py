@@ -53,8 +53,17 @@ json_option = flag("--json", "as_json",
 quiet_option = flag("-q", "--quiet", help="No progress bars.")
 seed_option = click.option("--seed", type=int, default=0, show_default=True,
                            help="Seed for every random choice (same seed, same output).")
+
+
+def _threads(ctx: click.Context, param: click.Parameter, value: int | None) -> int | None:
+    if value is not None and value < 1:  # refused while parsing, before any work
+        raise UsageError(f"threads={value} must be >= 1; give --threads 1 or more, or leave "
+                         "it out for the libraries' defaults")
+    return value
+
+
 threads_option = click.option(
-    "--threads", type=int, default=None, metavar="N",
+    "--threads", type=int, default=None, metavar="N", callback=_threads,
     help="Compute threads (torch and faiss) while timing; give what a deployed replica will "
          "have, e.g. 1 per worker on a shared machine (default: the libraries' own, one per "
          "core). The latency file records the count used.")

@@ -200,6 +200,8 @@ def review_export(qrels: str, queries: str, catalogue: str, output: str,
     from ..runs import read_run
     from ..silver import query_styles
 
+    reject([(pairs == "silver" and bool(run_paths),
+             "--runs has no effect with --pairs silver; drop one of them")])
     styles, found = query_styles(qrels, provenance)
     provenance = provenance or (str(found) if found is not None else None)
     summary = export_sheet(

@@ -94,11 +94,10 @@ def search(index: str, queries: str, output: str, k: int, catalogue: str | None,
       trawl search idx/bm25 queries.tsv -o runs/bm25.run -k 20 --json
     """
     from ..index import open_recorded
-    from ..latency import check_threads, measure_search, write_latency
+    from ..latency import measure_search, write_latency
     from ..queries import read_queries
     from ..runs import name_from_path, write_run
 
-    check_threads(threads)
     idx, gone = open_recorded(index, catalogue)
     if gone is not None:
         echo_err([f"warning: {gone} (the catalogue this index was built from) is gone; "

@@ -79,7 +79,7 @@ def export_sheet(qrels: Qrels, queries: Mapping[str, str], catalogue: Catalogue,
     grades = [g for items in qrels.values() for g in items.values()]
     scale = max_grade if max_grade is not None else max([1, *grades])
     if grades and max(grades) > scale:
-        raise UsageError(f"--max-grade {scale} is below the highest grade in the judgments "
+        raise UsageError(f"highest grade {scale} is below the highest grade in the judgments "
                          f"({max(grades)}); raise it or leave it out")
     if min(grades, default=0) < 0:
         raise UsageError(f"negative grade {min(grades)} in the judgments; review sheets use "
@@ -134,23 +134,23 @@ def _check_export_options(out: Path, runs: Sequence[Run], pairs: str, depth: int
     if out.suffix.lower() not in FORMATS:
         raise UsageError(f"sheet {out} must end in .csv or .xlsx")
     if pairs not in PAIRS:
-        raise UsageError(f"--pairs {pairs!r} is not one of: {', '.join(PAIRS)}")
+        raise UsageError(f"pairs {pairs!r} is not one of: {', '.join(PAIRS)}")
     if pairs in ("pooled", "both") and not runs:
-        raise UsageError(f"--pairs {pairs} needs at least one run to pool (--runs)")
+        raise UsageError(f"pairs {pairs!r} needs at least one run to pool; give runs")
     if pairs == "silver" and runs:
-        raise UsageError("--runs has no effect with --pairs silver; drop one of them")
+        raise UsageError("runs have no effect with pairs 'silver'; drop one of them")
     if depth < 1:
-        raise UsageError(f"--depth {depth} must be 1 or more")
+        raise UsageError(f"pooling depth {depth} must be 1 or more")
     if sample is not None and sample < 1:
-        raise UsageError(f"--sample {sample} must be 1 or more")
+        raise UsageError(f"sample of {sample} queries: must be 1 or more")
     if reviewers < 1:
-        raise UsageError(f"--reviewers {reviewers} must be 1 or more")
+        raise UsageError(f"{reviewers} reviewers: must be 1 or more")
     if overlap is not None and reviewers < 2:
-        raise UsageError("--overlap needs --reviewers 2 or more")
+        raise UsageError("an overlap needs 2 or more reviewers")
     if overlap is not None and not 0 < overlap <= 1:
-        raise UsageError(f"--overlap {overlap} must be a share of queries in (0, 1]")
+        raise UsageError(f"overlap {overlap} must be a share of queries in (0, 1]")
     if max_grade is not None and max_grade < 1:
-        raise UsageError(f"--max-grade {max_grade} must be 1 or more")
+        raise UsageError(f"highest grade {max_grade} must be 1 or more")
     names = [r.name for r in runs]
     if len(set(names)) != len(names):
         raise UsageError("two runs share a name; rename one (the run tag)")

@@ -100,9 +100,9 @@ class LlmClient:
             host = parts.hostname or ""
             port = f":{parts.port}" if parts.port else ""
         except ValueError:
-            return "(the --llm-url given)"
+            return "(the server URL given)"
         if not host:
-            return "(the --llm-url given)"
+            return "(the server URL given)"
         return f"{parts.scheme}://{host}{port}{parts.path}{'?...' if parts.query else ''}"
 
     def _hide(self, text: str) -> str:
@@ -162,18 +162,18 @@ class LlmClient:
                 if exc.code in RETRY_STATUS:
                     continue
                 raise LlmError(f"chat server at {self.shown_endpoint} refused the request: "
-                               f"{last}; check --llm-model and --llm-url") from None
+                               f"{last}; check the model name and the server URL") from None
             except (urllib.error.URLError, socket.timeout, TimeoutError, ConnectionError) as exc:
                 reason = getattr(exc, "reason", exc)
                 last = ("timed out" if isinstance(reason, (socket.timeout, TimeoutError))
                         else self._hide(str(reason)))
                 continue
             except ValueError:  # http.client.InvalidURL and friends
-                raise LlmError(f"--llm-url {self.shown_endpoint} is not a usable http(s) URL; "
+                raise LlmError(f"server URL {self.shown_endpoint} is not a usable http(s) URL; "
                                "give e.g. http://127.0.0.1:8080/v1") from None
             return _content(self.shown_endpoint, payload)
         raise LlmError(f"chat server at {self.shown_endpoint} unreachable after "
-                       f"{self.retries + 1} tries ({last}); start it or fix --llm-url")
+                       f"{self.retries + 1} tries ({last}); start it or fix the server URL")
 
 
 def _content(endpoint: str, payload: bytes) -> str:
