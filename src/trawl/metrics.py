@@ -46,8 +46,12 @@ KINDS = {
     "map": (False, "average precision (mean over queries: MAP)"),
     "hit": (True, "1 if any relevant item is in the top k, else 0"),
 }
-ALLOWED_FORMS = "ndcg@K, mrr@K, recall@K, precision@K, hit@K, map, map@K, ndcg, mrr"
-_NAME = re.compile(r"^([a-z]+)(?:@(\d+))?$")
+# the usual short spellings (as ir_measures writes them: P@5, R@100, RR@10, AP, Success@10)
+ALIASES = {"p": "precision", "prec": "precision", "r": "recall", "rr": "mrr", "ap": "map",
+           "success": "hit"}
+ALLOWED_FORMS = ("ndcg@K, mrr@K, recall@K, precision@K, hit@K, map, map@K, ndcg, mrr, in any "
+                 "case, or P@K, R@K, RR@K, AP, Success@K")
+_NAME = re.compile(r"^([a-z]+)(?:@([0-9]+))?$")
 
 
 @dataclass(frozen=True)
@@ -66,9 +70,10 @@ class Metric:
 
 
 def parse_metric(name: str) -> Metric:
-    """``"nDCG@10"`` -> ``Metric("ndcg", 10)``; anything else is a UsageError naming the forms."""
-    m = _NAME.match(name.strip().lower())
-    kind, k = (m.group(1), m.group(2)) if m else (None, None)
+    """``"nDCG@10"``, ``"P@5"`` -> ``Metric("ndcg", 10)``, ``Metric("precision", 5)``;
+    anything else is a UsageError naming the forms."""
+    m = _NAME.match("".join(name.split()).lower())
+    kind, k = (ALIASES.get(m.group(1), m.group(1)), m.group(2)) if m else (None, None)
     if kind not in KINDS:
         raise UsageError(f"unknown metric {name!r}; use one of {ALLOWED_FORMS} "
                          "(K a whole number >= 1, e.g. ndcg@10)")
