@@ -80,7 +80,8 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
     engine = engine or LocalEngine()
     cache_root = Path(cache_dir) if cache_dir is not None else default_cache_dir()
     with _build_lock(out):
-        _recover_leftovers(out)
+        with swap_lock(out, shared=False):
+            _recover_leftovers(out)
         start = time.perf_counter()
         tmp = out.parent / f".{out.name}.building-{os.getpid()}"
         shutil.rmtree(tmp, ignore_errors=True)
@@ -101,7 +102,8 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
             manifest = make_manifest(catalogue, enc_spec, fingerprint, dim, ann, ann_params,
                                      embedded, seconds, engine.name)
             write_json(tmp / MANIFEST, manifest)
-            _swap_into_place(tmp, out)
+            with swap_lock(out, shared=False):
+                _swap_into_place(tmp, out)
         finally:
             shutil.rmtree(tmp, ignore_errors=True)
     return info_from_manifest(out, manifest)
@@ -240,6 +242,32 @@ def _build_lock(out: Path) -> Iterator[None]:
                              "writing it); wait for it to finish or choose another -o") from None
         os.ftruncate(fd, 0)
         os.pwrite(fd, f"{os.getpid()}\n".encode(), 0)
+        yield
+    finally:
+        os.close(fd)  # closing releases the lock
+
+
+@contextlib.contextmanager
+def swap_lock(out: Path, shared: bool) -> Iterator[None]:
+    """Held exclusively while the folder is swapped, shared while a reader opens it.
+
+    A reader loads ids, vectors and term matrix while holding it, so it sees the old
+    build or the new one, whole, never ids from one and vectors from the other; it
+    waits at most one rename, and a builder waits for readers already opening. It is a
+    POSIX record lock on the build lock file, which Linux keeps apart from the build's
+    whole-file lock. A reader that cannot open the lock file (a folder it may not
+    write, or where no build ever ran) goes ahead: nothing can be rebuilding there.
+    """
+    lock_path = out.parent / f".{out.name}.lock"
+    try:
+        fd = os.open(lock_path, os.O_RDWR | (0 if shared else os.O_CREAT), 0o644)
+    except OSError:
+        if not shared:
+            raise
+        yield
+        return
+    try:
+        fcntl.lockf(fd, fcntl.LOCK_SH if shared else fcntl.LOCK_EX)
         yield
     finally:
         os.close(fd)  # closing releases the lock

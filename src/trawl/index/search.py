@@ -19,7 +19,7 @@ from ..ranking import id_ranks, top_k
 from ..retrievers.loading import EncoderLoader, default_loader
 from ..retrievers.spec import EncoderSpec, as_spec, parse_spec
 from ..runs import Run
-from .build import build_index
+from .build import build_index, swap_lock
 from .manifest import HNSW_FILE, IDS, LEXICAL_DIR, VECTORS, IndexInfo, folder_bytes, \
     info_from_manifest, read_manifest
 
@@ -33,8 +33,15 @@ def open_index(out_dir: str | Path, catalogue: Catalogue | None = None,
                spec: EncoderSpec | str | None = None, *,
                loader: EncoderLoader | None = None) -> Index:
     """Open an index for search, refusing a changed catalogue or a different encoder
-    (``spec``: parsed already, or a spec string parsed here)."""
+    (``spec``: parsed already, or a spec string parsed here). Opening waits while a
+    rebuild swaps the folder, so every file comes from one build (``build.swap_lock``)."""
     folder = Path(out_dir)
+    with swap_lock(folder, shared=True):
+        return _open(folder, catalogue, spec, loader)
+
+
+def _open(folder: Path, catalogue: Catalogue | None, spec: EncoderSpec | str | None,
+          loader: EncoderLoader | None) -> Index:
     manifest = read_manifest(folder)
     built = parse_spec(manifest["encoder"]["spec"], check_paths=False)
     if spec is not None:
@@ -94,6 +101,7 @@ class Index:
                              f"{manifest['catalogue']['items']}; rebuild the index")
         self._ranks = id_ranks(self.ids)
         self._encoder = None
+        self._bytes = folder_bytes(folder)  # now: the folder may be rebuilt while in use
         if self.spec.lexical:
             from ..retrievers.lexical import LexicalIndex
 
@@ -110,7 +118,7 @@ class Index:
 
     @property
     def bytes(self) -> int:
-        return folder_bytes(self.path)
+        return self._bytes
 
     def _load_faiss(self):
         import faiss
