@@ -27,7 +27,7 @@ from typing import Any
 
 import numpy as np
 
-SCAN_BLOCK = 1 << 24   # bytes of a file with tabs or padding normalised at a time
+SCAN_BLOCK = 1 << 24   # bytes of a file parsed at a time
 PARSE_BLOCK = 1 << 21  # bytes per pyarrow parse task (blocks are parsed on several threads)
 GAIN_ROWS = 1 << 20    # run lines looked up at a time when scoring
 # UTF-8 that may be Unicode whitespace (U+0085, U+00A0, U+1680, U+2000-U+200A, U+2028/9,
@@ -88,37 +88,95 @@ class RankedColumns(Mapping[str, tuple[tuple[str, float], ...]]):
 # --- reading -----------------------------------------------------------------------------------
 
 def read_run_columns(path: str | Path) -> tuple[str, RankedColumns] | None:
-    """(first tag, columns) of a run, or None to read it line by line."""
+    """(first tag, columns) of a run, or None to read it line by line.
+
+    The file is parsed a block of lines at a time into preallocated arrays (sized for
+    the shortest possible lines; pages never written cost no memory), so the peak is
+    the columns plus one block, whatever the file's size.
+    """
     path = Path(path)
     try:
-        table = _parse(path) or _parse_normalised(path)
+        cap = path.stat().st_size // 12 + 1  # "q Q0 i 1 1 t\n" is 13 bytes
+        queries, codes = np.empty(cap, dtype=np.int32), np.empty(cap, dtype=np.int32)
+        scores = np.empty(cap, dtype=np.float64)
+        spans: list[tuple[int, int, Any, Any]] = []  # lines a:b, their qid and item dictionaries
+        tag, n = None, 0
+        for i, block in enumerate(_blocks(path)):
+            if i and bytes(block[:3]) == b"\xef\xbb\xbf":
+                return None  # pyarrow would drop it as a byte-order mark; the file keeps it
+            table = _parse(block) or _parse(_normalised(block))
+            if table is None:
+                return None
+            m = table.num_rows
+            queries[n:n + m], qids = _codes(table["qid"])
+            codes[n:n + m], items = _codes(table["item"])
+            scores[n:n + m] = _numpy(table["score"])
+            if tag is None and m:
+                tag_codes, tags = _codes(table["tag"])
+                tag = tags[int(tag_codes[0])].as_py()
+            spans.append((n, n + m, qids, items))
+            n += m
     except OSError:
         return None  # the careful reader names what is wrong with the file
-    if table is None or table.num_rows == 0:
+    if tag is None:
         return None
-    scores = _numpy(table["score"])
+    queries, codes, scores = queries[:n], codes[:n], scores[:n]
     if not np.isfinite(scores).all():
         return None  # nan and inf are refused (trawl.numbers), with the line, by the other reader
-    tag_codes, tags = _codes(table["tag"])
-    tag = tags[int(tag_codes[0])].as_py()
-    queries, qids = _codes(table["qid"])
-    codes, vocabulary = _codes(table["item"])
-    del table, tag_codes
-    columns = _rank_ordered(qids, queries, codes, scores, vocabulary)
+    qid_values = _unify(queries, [(a, b, q) for a, b, q, _ in spans])
+    vocabulary = _unify(codes, [(a, b, i) for a, b, _, i in spans])
+    columns = _rank_ordered(qid_values, queries, codes, scores, vocabulary)
     return None if columns is None else (tag, columns)
 
 
-def _parse(source: Any) -> Any:
-    """pyarrow table (qid, item, score, tag) of a file or buffer of lines of six fields
-    joined by single spaces; None when a line or value is not what the careful reader
-    would read the same way."""
+def _blocks(path: Path) -> Iterator[Any]:
+    """The file's bytes in blocks of whole lines (views of one reused buffer)."""
+    with path.open("rb") as fh:
+        buffer = bytearray(SCAN_BLOCK)
+        kept = 0  # bytes of an unfinished line carried over from the previous read
+        while True:
+            if kept == len(buffer):  # a line longer than the buffer (a new one: views remain)
+                buffer = buffer + bytearray(len(buffer))
+            got = fh.readinto(memoryview(buffer)[kept:])
+            end = kept + got
+            cut = buffer.rfind(b"\n", 0, end) + 1 if got else end
+            if cut:
+                yield memoryview(buffer)[:cut]
+            buffer[:end - cut] = buffer[cut:end]
+            kept = end - cut
+            if not got:
+                return
+def _normalised(block: Any) -> bytes:
+    """Runs of spaces and tabs as one space, none at line ends (what str.split() sees)."""
+    block = _SPACES.sub(b" ", bytes(block).replace(b"\t", b" "))
+    return block.replace(b" \n", b"\n").replace(b"\n ", b"\n").strip(b" ")
+
+
+def _unify(codes: np.ndarray, spans: list[tuple[int, int, Any]]) -> Any:
+    """One dictionary for the per-block dictionaries; ``codes`` recoded into it in place."""
+    import pyarrow as pa
+
+    if len(spans) == 1:
+        return spans[0][2]
+    whole = [pa.DictionaryArray.from_arrays(pa.array(np.arange(len(d), dtype=np.int32)), d)
+             for _, _, d in spans]
+    unified = pa.chunked_array(whole).unify_dictionaries()
+    for (a, b, _), recode in zip(spans, unified.chunks):
+        codes[a:b] = _view(recode.indices)[codes[a:b]]
+    return unified.chunk(0).dictionary
+
+
+def _parse(block: bytes) -> Any:
+    """pyarrow table (qid, item, score, tag) of a block of lines of six fields joined by
+    single spaces, one dictionary per column; None when a line or value is not what the
+    careful reader would read the same way."""
     import pyarrow as pa
     from pyarrow import csv
 
     text = pa.dictionary(pa.int32(), pa.string())
     try:
         table = csv.read_csv(
-            source if isinstance(source, Path) else pa.BufferReader(source),
+            pa.BufferReader(pa.py_buffer(block)),
             csv.ReadOptions(column_names=list(_RUN_FIELDS), block_size=PARSE_BLOCK),
             csv.ParseOptions(delimiter=" ", quote_char=False, double_quote=False,
                              escape_char=False, ignore_empty_lines=True),
@@ -128,13 +186,13 @@ def _parse(source: Any) -> Any:
                                null_values=[], strings_can_be_null=False, check_utf8=True))
     except pa.ArrowInvalid:
         return None  # a field count, number or encoding the careful reader will locate
+    table = table.unify_dictionaries()
     if not _whole_ranks(table["rank"]):
         return None
-    table = table.drop_columns(["q0", "rank"]).unify_dictionaries()  # parsed is all we need
-    for name in ("qid", "item", "tag"):
+    for name in ("qid", "q0", "item", "tag"):
         if table.num_rows and not _plain_words(table[name].chunk(0).dictionary):
             return None
-    return table
+    return table.drop_columns(["q0", "rank"])  # checked is all they are needed for
 
 
 def _whole_ranks(column: Any) -> bool:
@@ -155,34 +213,11 @@ def _plain_words(values: Any) -> bool:
     return data.isascii() or not any(s in data for s in _SUSPECT)
 
 
-def _parse_normalised(path: Path) -> Any:
-    """``_parse`` of the file after runs of spaces and tabs become one space (so files
-    aligned with tabs or padding still read as columns), a block of lines at a time."""
-    import pyarrow as pa
-
-    tables = []
-    with path.open("rb") as fh:
-        rest = b""
-        while True:
-            read = fh.read(SCAN_BLOCK)
-            data = rest + read
-            cut = data.rfind(b"\n") + 1 if read else len(data)
-            block, rest = data[:cut], data[cut:]
-            if block:
-                block = _SPACES.sub(b" ", block.replace(b"\t", b" "))
-                block = block.replace(b" \n", b"\n").replace(b"\n ", b"\n").strip(b" ")
-                table = _parse(block)
-                if table is None:
-                    return None
-                tables.append(table)
-            if not read:
-                break
-    return pa.concat_tables(tables).unify_dictionaries() if tables else None
-
-
 def _numpy(column: Any) -> np.ndarray:
     """One numpy array of a chunked float64 or int32 column without nulls."""
     chunks = column.chunks
+    if not chunks:
+        return np.empty(0, dtype=np.float64)
     if len(chunks) == 1:
         return _view(chunks[0])
     out = np.empty(len(column), dtype=_view(chunks[0]).dtype)
@@ -203,6 +238,8 @@ def _codes(column: Any) -> tuple[np.ndarray, Any]:
     """int32 codes and the dictionary of a unified dictionary column."""
     import pyarrow as pa
 
+    if column.num_chunks == 0:
+        return np.empty(0, dtype=np.int32), pa.array([], pa.string())
     indices = pa.chunked_array([c.indices for c in column.chunks], type=pa.int32())
     return _numpy(indices), column.chunk(0).dictionary
 
@@ -228,7 +265,9 @@ def _rank_ordered(qid_values: Any, queries: np.ndarray, codes: np.ndarray,
     offsets = np.searchsorted(queries, np.arange(len(qids) + 1)).astype(np.int64)
     item_rank = _sort_positions(vocabulary)
     codes, scores = _put_in_rank_order(queries, codes, scores, item_rank)
-    keys = queries.astype(np.int64) * len(vocabulary) + codes
+    keys = queries.astype(np.int64)  # (query, item) as one number, built in place
+    keys *= len(vocabulary)
+    keys += codes
     keys.sort()
     if n > 1 and (keys[1:] == keys[:-1]).any():
         return None
@@ -260,7 +299,6 @@ def _put_in_rank_order(queries: np.ndarray, codes: np.ndarray, scores: np.ndarra
     del same, tied
     if bad.size == 0:
         return codes, scores
-    codes, scores = np.array(codes), np.array(scores)  # writable copies of arrow memory
     wrong = np.zeros(int(queries[-1]) + 1, dtype=bool)
     wrong[queries[bad]] = True
     rows = np.flatnonzero(wrong[queries])
