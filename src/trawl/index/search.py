@@ -43,14 +43,15 @@ def open_index(out_dir: str | Path, catalogue: Catalogue | None = None,
 def _open(folder: Path, catalogue: Catalogue | None, spec: EncoderSpec | str | None,
           loader: EncoderLoader | None) -> Index:
     manifest = read_manifest(folder)
-    built = parse_spec(manifest["encoder"]["spec"], check_paths=False)
-    if spec is not None:
-        wanted = as_spec(spec, check_paths=False)
-        if wanted != built:
-            raise EncoderMismatchError(
-                f"index {folder} was built with encoder {built}, not {wanted}; search it as "
-                f"{built}, or build one for {wanted}: "
-                + REBUILD.format(cat=manifest["catalogue"]["path"], spec=wanted, out=folder))
+    recorded = manifest["encoder"]["spec"]  # canonical: equal strings are equal specs
+    wanted = as_spec(spec, check_paths=False) if spec is not None else None
+    built = wanted if wanted is not None and str(wanted) == recorded else \
+        parse_spec(recorded, check_paths=False)
+    if wanted is not None and wanted != built:
+        raise EncoderMismatchError(
+            f"index {folder} was built with encoder {built}, not {wanted}; search it as "
+            f"{built}, or build one for {wanted}: "
+            + REBUILD.format(cat=manifest["catalogue"]["path"], spec=wanted, out=folder))
     if catalogue is not None:
         _refuse_stale(folder, manifest, catalogue, built)
     return Index(folder, manifest, built, loader or default_loader())
