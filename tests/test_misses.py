@@ -109,7 +109,7 @@ def test_misses_command(files, tmp_path):
     rows = list(csv.DictReader(out.open()))
     assert rows[3]["lost_to"] == f"{NO_RESULTS}=0.5 screen=0.5"
     js = invoke(["misses", files["qrels"], files["dense"], "-c", files["catalogue"], "--json",
-                 "-k", "1"])
+                 "--cutoff", "1"])
     assert json.loads(js.stdout)["k"] == 1
 
 
@@ -150,31 +150,31 @@ def test_query_text_is_scrubbed_on_request_and_counted(personal_queries):
     assert raw.scrubbed is None and "scrubbed" not in raw.as_dict()
 
 
-def test_misses_command_scrub(personal_queries):
+def test_misses_command_scrubs_query_text_by_default(personal_queries):
     f = personal_queries
     base = ["misses", f["qrels"], f["dense"], "-c", f["catalogue"], "--queries", f["queries"]]
-    res = invoke([*base, "--scrub"])
+    res = invoke(base)
     assert res.exit_code == 0, res.output
     assert ("    q3 \"dogs on buses, write to [email] or ring [phone]\": wanted faq-pets "
             "('Can I bring my dog?') at rank 2") in res.stdout.splitlines()
     assert "scrubbed from query text: 2 email, 1 phone" in res.stdout.splitlines()
     assert "mara.quillen@example.org" not in res.stdout and "7700" not in res.stdout
-    js = invoke([*base, "--scrub", "--json"])
+    js = invoke([*base, "--json"])
     assert js.exit_code == 0
     data = json.loads(js.stdout)
     assert data["scrubbed"] == {"email": 2, "phone": 1, "postcode": 0, "number": 0}
     assert data["worst"]["queries"][0]["query"] == "dogs on buses, write to [email] or ring [phone]"
-    plain = invoke(base)
+    plain = invoke([*base, "--no-scrub"])
     assert plain.exit_code == 0
     assert f"    q3 \"{PERSONAL_QUERIES['q3']}\": wanted faq-pets ('Can I bring my dog?') " \
            "at rank 2" in plain.stdout.splitlines()
     assert "scrubbed" not in plain.stdout
-    assert "scrubbed" not in json.loads(invoke([*base, "--json"]).stdout)
+    assert "scrubbed" not in json.loads(invoke([*base, "--json", "--no-scrub"]).stdout)
 
 
-def test_misses_command_scrub_needs_queries(files, tmp_path):
+def test_misses_command_no_scrub_needs_queries(files, tmp_path):
     # rejected before any file is read: the qrels path does not exist
     res = invoke(["misses", tmp_path / "absent.qrels", files["dense"], "-c", files["catalogue"],
-                  "--scrub"])
+                  "--no-scrub"])
     assert res.exit_code == 2
-    assert res.stderr == "error: --scrub applies to query text; it needs --queries\n"
+    assert res.stderr == "error: --no-scrub applies to query text; it needs --queries\n"

@@ -85,7 +85,7 @@ def library(tmp_path_factory) -> tuple[Path, Path, Path]:
 def eval_args(library, out: Path, *extra: str) -> list:
     cat, queries, qrels = library
     return ["eval", cat, queries, qrels, "-e", "minilm", "-e", "bm25", "--fuse", "minilm+bm25",
-            "-o", out, "--cache", out.parent / "cache", "--resamples", "500", "-q", *extra]
+            "-o", out, "--cache-dir", out.parent / "cache", "--resamples", "500", "-q", *extra]
 
 
 @pytest.fixture(scope="module")
@@ -254,7 +254,7 @@ def test_silver_sets_are_labelled_as_estimates(library, tmp_path):
               for q, text, item, style in made), {}))
     out = tmp_path / "out"
     result = invoke(["eval", cat, f"{prefix}.queries.tsv", f"{prefix}.qrels", "-e", "bm25",
-                     "-e", "strict=bm25;k1=0.9;b=0.4", "-o", out, "--cache", tmp_path / "cache",
+                     "-e", "strict=bm25;k1=0.9;b=0.4", "-o", out, "--cache-dir", tmp_path / "cache",
                      "--resamples", "200", "-q"])
     assert result.exit_code == 0, result.output
     assert "silver judgments: figures are estimates; agreement with human judgments not " \

@@ -15,7 +15,6 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from trawl.stats import cohen_kappa, wilson_interval
 from trawl.catalogue import load_catalogue
 from trawl.destinations import query_types
 from trawl.errors import InputError, UsageError
@@ -25,6 +24,7 @@ from trawl.review import (COLUMNS, export_sheet, guard_cell, import_sheets, merg
                           unguard_cell)
 from trawl.runs import make_run, write_run
 from trawl.silver import read_styles
+from trawl.stats import cohen_kappa, wilson_interval
 
 from .conftest import invoke
 
@@ -457,7 +457,7 @@ def test_provenance_reader_is_defensive_but_locates_broken_lines(world, tmp_path
 
 def test_cli_export_and_import_round_trip_with_provenance_found_beside_qrels(world):
     d = world["dir"]
-    res = invoke(["review", "export", d / "silver.qrels", d / "silver.queries.tsv", world["cat"],
+    res = invoke(["review", "export", d / "silver.qrels", d / "silver.queries.tsv", "-c", world["cat"],
                   "-o", d / "r.csv", "--runs", d / "alpha.run", "--depth", "1"])
     assert res.exit_code == 0, res.output
     assert res.stdout.splitlines() == [
@@ -479,11 +479,11 @@ def test_cli_export_and_import_round_trip_with_provenance_found_beside_qrels(wor
 
 def test_cli_rejects_conflicting_flags_before_work(world):
     d = world["dir"]
-    res = invoke(["review", "export", d / "silver.qrels", d / "silver.queries.tsv", world["cat"],
+    res = invoke(["review", "export", d / "silver.qrels", d / "silver.queries.tsv", "-c", world["cat"],
                   "-o", d / "r.csv", "--runs", d / "alpha.run", "--pairs", "silver"])
     assert res.exit_code == 2
     assert res.stderr == "error: --runs has no effect with --pairs silver; drop one of them\n"
-    res = invoke(["review", "export", d / "silver.qrels", d / "silver.queries.tsv", world["cat"],
+    res = invoke(["review", "export", d / "silver.qrels", d / "silver.queries.tsv", "-c", world["cat"],
                   "-o", d / "r.txt"])
     assert res.exit_code == 2 and "must end in .csv" in res.stderr
     assert not (d / "r.csv").exists()

@@ -219,7 +219,7 @@ def review_inputs(tmp_path) -> list:
     queries.write_text("".join(f"q{i}\t{t}\n" for i, t in enumerate(texts)))
     qrels = tmp_path / "s.qrels"
     qrels.write_text("".join(f"q{i} 0 it{i % len(HOSTILE_CELLS)} 2\n" for i in range(len(texts))))
-    return [qrels, queries, catalogue]
+    return [qrels, queries, "-c", catalogue]
 
 
 def test_review_csv_has_no_formula_cells_and_no_personal_data(review_inputs, tmp_path):
@@ -316,16 +316,17 @@ def test_report_html_shows_hostile_catalogue_and_query_text_as_text(tmp_path):
         assert HOSTILE_HTML[where] in text, where
 
 
-def test_report_query_text_can_be_scrubbed(tmp_path):
+def test_report_query_text_is_scrubbed_by_default(tmp_path):
     args = eval_inputs(tmp_path, hostile=True)  # q1 is among the worst queries shown
     out = args[-1]
-    result = invoke(["eval", *args, "--scrub"])
+    result = invoke(["eval", *args])
     assert result.exit_code == 0, result.output
     assert "scrubbed from query text in the report: 1 email, 1 phone" in result.stdout
     written = "".join(p.read_text(encoding="utf-8") for p in out.rglob("*")
                       if p.is_file() and p.suffix in (".html", ".json", ".csv"))
     assert "mara.quillen@example.org" not in written and "7700 900123" not in written
     assert "lost bag [email]" in written  # the text is still shown, without the address
-    unscrubbed = invoke(["eval", *args[:-1], tmp_path / "again"])
+    unscrubbed = invoke(["eval", *args[:-1], tmp_path / "again", "--no-scrub"])
     assert unscrubbed.exit_code == 0
+    assert "query text shown as given in the report and tables, not scrubbed" in unscrubbed.stdout
     assert "mara.quillen@example.org" in (tmp_path / "again" / "report.html").read_text()

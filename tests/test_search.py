@@ -37,7 +37,7 @@ def test_bm25_index_and_search_write_run_and_latency(files):
     assert result.exit_code == 0, result.stderr
     assert result.stdout.startswith("indexed 5 items with bm25 (inverted index), ")
     result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "runs" / "bm25.run",
-                     "-k", "5", "-q"])
+                     "--results", "5", "-q"])
     assert result.exit_code == 0, result.stderr
     lines = (files / "runs" / "bm25.run").read_text().splitlines()
     # bm25 lists only the items sharing a word with the query (no zero-score padding):
@@ -59,7 +59,7 @@ def test_bm25_index_and_search_write_run_and_latency(files):
 
 def test_search_json_output(files):
     invoke(["index", files / "cat.jsonl", "-e", "bm25;k1=1.2", "-o", files / "idx", "-q"])
-    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "-k", "2",
+    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "--results", "2",
                      "--warmup", "0", "--json", "-q"])
     out = json.loads(result.stdout)
     assert out["run"] == str(files / "r.run") and out["encoder"] == "bm25;k1=1.2"
@@ -68,9 +68,9 @@ def test_search_json_output(files):
 
 def test_k_larger_than_the_catalogue_is_an_error_naming_both(files):
     invoke(["index", files / "cat.jsonl", "-e", "bm25", "-o", files / "idx", "-q"])
-    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "-k", "6"])
+    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "--results", "6"])
     assert result.exit_code == 2
-    assert result.stderr == "error: k=6 exceeds catalogue size 5; lower -k\n"
+    assert result.stderr == "error: k=6 results per query exceeds catalogue size 5; ask for at most 5\n"
     assert not (files / "r.run").exists()
 
 
@@ -84,14 +84,14 @@ def test_search_refuses_an_index_whose_catalogue_changed(files):
                                   f"-o {files / 'idx'}` (only changed items are re-embedded)\n")
     rebuilt = invoke(["index", files / "cat.jsonl", "-e", "bm25", "-o", files / "idx", "-q"])
     assert rebuilt.exit_code == 0
-    assert invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "-k", "5",
+    assert invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "--results", "5",
                    "-q"]).exit_code == 0
 
 
 def test_search_warns_when_the_catalogue_is_gone(files):
     invoke(["index", files / "cat.jsonl", "-e", "bm25", "-o", files / "idx", "-q"])
     (files / "cat.jsonl").unlink()
-    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "-k", "5",
+    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "--results", "5",
                      "-q"])
     assert result.exit_code == 0
     assert result.stderr == (f"warning: {files / 'cat.jsonl'} (the catalogue this index was "
@@ -122,7 +122,7 @@ def test_minilm_index_json_and_search(files):
     again = json.loads(invoke(["index", files / "cat.jsonl", "-e", "minilm", "-o", files / "idx",
                                "--json", "-q"]).stdout)
     assert (again["embedded"], again["reused"]) == (0, 5)
-    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "m.run", "-k", "3",
+    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "m.run", "--results", "3",
                      "-q"])
     assert result.exit_code == 0, result.stderr
     run = read_run(files / "m.run")

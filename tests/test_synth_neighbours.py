@@ -7,7 +7,7 @@ import pytest
 
 from trawl.catalogue import Catalogue, Item
 from trawl.errors import UsageError
-from trawl.synth import synthesise
+from trawl.synth import SynthSettings, synthesise
 from trawl.synth.neighbours import consensus_neighbours, neighbour_depth
 from trawl.synth.overlap import OverlapProfile
 
@@ -51,8 +51,8 @@ def test_only_items_every_encoder_agrees_on_count(tmp_path):
 
 
 def test_silver_judges_neighbours_at_the_related_grade(tmp_path):
-    s = synthesise(CAT, per_item=1, styles="keyword", profile=KEEP_ALL, neighbours=("bm25",),
-                   neighbour_depth=1, cache_dir=tmp_path, quiet=True)
+    s = synthesise(CAT, SynthSettings(styles="keyword", profile=KEEP_ALL, neighbours=("bm25",),
+                                      neighbour_depth=1), cache_dir=tmp_path, quiet=True)
     for rec in s.provenance:
         grades = s.qrels[rec["qid"]]
         if rec["source"] == "lost" and set(rec["sources"]) == {"lost"}:
@@ -60,12 +60,12 @@ def test_silver_judges_neighbours_at_the_related_grade(tmp_path):
         assert all(g in (1, 2) for g in grades.values())
     assert s.summary["neighbours"]["encoders"] == ["bm25"]
     assert s.summary["neighbours"]["judgments_added"] == sum(len(g) - 1 for g in s.qrels.values())
-    off = synthesise(CAT, per_item=1, styles="keyword", profile=KEEP_ALL, neighbours=(),
+    off = synthesise(CAT, SynthSettings(styles="keyword", profile=KEEP_ALL, neighbours=()),
                      quiet=True)
     assert all(set(g.values()) == {2} for g in off.qrels.values())
     assert off.summary["neighbours"]["judgments_added"] == 0
-    none = synthesise(CAT, per_item=1, styles="keyword", profile=KEEP_ALL, related_grade=0,
-                      neighbours=("bm25",), cache_dir=tmp_path, quiet=True)
+    none = synthesise(CAT, SynthSettings(styles="keyword", profile=KEEP_ALL, related_grade=0,
+                                         neighbours=("bm25",)), cache_dir=tmp_path, quiet=True)
     assert all(set(g.values()) == {2} for g in none.qrels.values())
 
 
@@ -75,7 +75,7 @@ def test_cli_neighbour_switches(tmp_path):
         f'{{"id": "{it.id}", "type": "{it.type}", "title": "{it.title}", "text": "{it.text}"}}\n'
         for it in ITEMS))
     r = invoke(["synth", cat, "-o", tmp_path / "s", "--styles", "keyword", "--max-overlap", "1",
-                "--neighbours", "bm25", "--neighbour-depth", "1", "--cache", tmp_path / "cache"])
+                "--neighbours", "bm25", "--neighbour-depth", "1", "--cache-dir", tmp_path / "cache"])
     assert r.exit_code == 0, r.output
     assert "neighbour judgments at grade 1 (items bm25 all place among a source's 1 nearest)" \
         in r.output

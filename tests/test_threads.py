@@ -146,7 +146,7 @@ def files(tmp_path, monkeypatch):
 def test_search_threads_is_recorded_and_restored(files):
     before = _counts()
     n = _other(before[0])
-    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "-k", "5",
+    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "--results", "5",
                      "--threads", n, "-q"])
     assert result.exit_code == 0, result.stderr
     assert json.loads((files / "r.run.latency.json").read_text())["threads"] == n
@@ -155,7 +155,7 @@ def test_search_threads_is_recorded_and_restored(files):
 
 
 def test_search_without_threads_records_the_default(files):
-    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "-k", "5",
+    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "--results", "5",
                      "-q"])
     assert result.exit_code == 0, result.stderr
     assert json.loads((files / "r.run.latency.json").read_text())["threads"] == \
@@ -174,7 +174,7 @@ def _eval(files, out, *extra):
     qrels = files / "q.qrels"
     qrels.write_text("q1 0 fees 2\nq2 0 card 2\nq3 0 renew 1\n")
     return invoke(["eval", files / "cat.jsonl", files / "q.tsv", qrels, "-e", "a=bm25",
-                   "-e", "b=bm25;k1=0.9", "--fuse", "a+b", "-k", "5", "-o", out,
+                   "-e", "b=bm25;k1=0.9", "--fuse", "a+b", "--results", "5", "-o", out,
                    "--resamples", "50", "-q", *extra])
 
 

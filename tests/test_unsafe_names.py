@@ -64,7 +64,7 @@ def test_search_command_refuses_a_name_with_white_space(tmp_path, monkeypatch):
     assert invoke(["index", tmp_path / "cat.jsonl", "-e", "bm25", "-o", tmp_path / "idx",
                    "-q"]).exit_code == 0
     res = invoke(["search", tmp_path / "idx", tmp_path / "q.tsv", "-o", tmp_path / "r.run",
-                  "-k", "1", "--name", "my run", "-q"])
+                  "--results", "1", "--name", "my run", "-q"])
     assert res.exit_code == 2
     assert res.stderr == ("error: run name 'my run' cannot be the tag of a TREC run line, "
                           "which must be one field without white space or control "

@@ -8,14 +8,13 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
-from itertools import chain
-from operator import itemgetter
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from .catalogue import Catalogue
+from .columns import listed_items, result_count
 from .destinations import TYPE_RULE, query_types, type_members
 from .errors import UsageError
 from .ids import examples
@@ -36,7 +35,7 @@ def count(n: int, singular: str, plural: str | None = None) -> str:
 def run_warnings(qrels: Qrels, run: Run, catalogue: Catalogue | None) -> list[str]:
     """What a reader of the scores must know about one run's coverage."""
     out = []
-    missing = [q for q in qrels if not run.results.get(q)]
+    missing = [q for q in qrels if not result_count(run.results, q)]
     if missing:
         out.append(f"run {run.name!r}: queries without results, scored 0: {len(missing)} of "
                    f"{len(qrels)}: {examples(missing)}")
@@ -50,7 +49,7 @@ def run_warnings(qrels: Qrels, run: Run, catalogue: Catalogue | None) -> list[st
                        f"differ, so they are not matched: {len(near)}: {'; '.join(near[:5])}")
     if catalogue is not None:
         by_id = catalogue.by_id
-        listed = set(map(itemgetter(0), chain.from_iterable(run.results.values())))
+        listed = listed_items(run.results)
         unknown = [] if listed <= by_id.keys() else [
             f"{q}/{item}" for q, pairs in run.results.items()
             for item, _ in pairs if item not in by_id]
@@ -84,8 +83,18 @@ def check_run_names(runs: Sequence[Run]) -> None:
         seen.add(r.name)
 
 
-def read_runs(paths: Sequence[str | Path]) -> list[Run]:
-    """Read runs, named by their tag unless tags repeat, then by file name (or path)."""
+def read_runs(paths: Sequence[str | Path], names: Sequence[str] = ()) -> list[Run]:
+    """Read runs, named by ``names`` (one per path, in order) when given, else by their
+    tag unless tags repeat, then by file name (or path)."""
+    if names:
+        if len(names) != len(paths):
+            raise UsageError(f"{len(names)} run name(s) given for {len(paths)} run file(s); "
+                             "give one name per run, in the order of the files")
+        dupes = sorted({n for n in names if list(names).count(n) > 1})
+        if dupes:
+            raise UsageError(f"run name {dupes[0]!r} is given twice; runs need names of "
+                             "their own")
+        return [read_run(p, name=n) for p, n in zip(paths, names)]
     runs = [read_run(p) for p in paths]
     if len({r.name for r in runs}) == len(runs):
         return runs

@@ -74,7 +74,18 @@ template_option = click.option(
 metrics_option = click.option(
     "-m", "--metric", "metrics", multiple=True, metavar="METRIC",
     help="Metric to compute; repeat for several. Forms: ndcg@K, mrr@K, recall@K, "
-         "precision@K, hit@K, map, map@K. Default: ndcg@10, mrr@10, recall@10, recall@100.")
+         "precision@K, hit@K, map, map@K, in any case, or the usual P@K, R@K, RR@K, AP, "
+         "Success@K. Default: ndcg@10, mrr@10, recall@10, recall@100.")
+cache_dir_option = click.option(
+    "--cache-dir", type=click.Path(file_okay=False), default=None, metavar="DIR",
+    help="Embedding cache folder (default: $TRAWL_CACHE_DIR, else ~/.cache/trawl).")
+results_option = click.option(
+    "--results", type=click.IntRange(min=1), default=100, show_default=True, metavar="N",
+    help="Results kept per query (capped at the catalogue size).")
+names_option = click.option(
+    "--name", "names", multiple=True, metavar="NAME",
+    help="Name of each RUN in the tables, in the order the RUN files are given; repeat once "
+         "per run (default: the run's tag, or its file name when tags repeat).")
 silver_option = flag("--silver", help="Mark the figures as estimates from silver (machine-made) "
                                       "judgments; automatic when a `trawl synth` provenance "
                                       "file PREFIX.jsonl sits beside PREFIX.qrels.")
@@ -92,6 +103,8 @@ def resamples_option(default: int, minimum: int, help: str) -> Callable:
 
 
 def catalogue_option(required: bool, help: str) -> Callable:
+    """The catalogue as context for runs, judgments or sheets; commands whose job is the
+    catalogue itself (check, index, synth, eval) take it as their first argument."""
     return click.option("-c", "--catalogue", required=required,
                         type=click.Path(dir_okay=False), help=help)
 

@@ -5,11 +5,13 @@ from __future__ import annotations
 import click
 
 from ..report import text
-from . import (emit_json, in_file, json_option, main, metrics_option, out_option, quiet_option,
-               resamples_option, retime_option, seed_option, step, template_option,
-               threads_option)
+from . import (cache_dir_option, emit_json, in_file, json_option, main, metrics_option,
+               no_scrub_option, out_option, quiet_option, resamples_option, results_option,
+               retime_option, seed_option, step, template_option, threads_option)
 
-resamples = resamples_option(10000, 1, "Bootstrap and randomisation resamples.")
+resamples = resamples_option(10000, 1, "Bootstrap and randomisation resamples. Default "
+                                       "10,000, as in compare: p-values near the "
+                                       "significance level need that many to be stable.")
 
 
 def _finish(result, as_json: bool) -> None:
@@ -33,33 +35,30 @@ def _finish(result, as_json: bool) -> None:
               help="Add a Reciprocal Rank Fusion of these systems; repeat for several.")
 @click.option("--baseline", default=None, metavar="NAME",
               help="System every other is compared with (default: the first -e).")
-@click.option("-k", "k", type=click.IntRange(min=1), default=100, show_default=True,
-              help="Results kept per query (capped at the catalogue size).")
+@results_option
 @metrics_option
 @resamples
 @seed_option
 @click.option("--judgments", "judged_by", type=click.Choice(["auto", "silver", "human"]),
               default="auto", show_default=True,
-              help="Who made the judgments; auto: silver when a trawl synth provenance "
-                   "file (PREFIX.jsonl) sits beside PREFIX.qrels.")
+              help="Who made the judgments. auto: silver when a trawl synth provenance "
+                   "file (PREFIX.jsonl) sits beside PREFIX.qrels, otherwise 'origin "
+                   "unknown' (never called human); human: people judged them, say so.")
 @click.option("--ann", type=click.Choice(["exact", "hnsw"]), default="exact",
               show_default=True, help="Dense search: exact, or an HNSW graph.")
-@out_option("--cache", "cache_dir", folder=True, default=None,
-            help="Embedding cache folder (default: $TRAWL_CACHE_DIR or ~/.cache/trawl).")
+@cache_dir_option
 @template_option
 @click.option("--title", default=None, help="Title of the report.")
-@click.option("--scrub", is_flag=True,
-              help="Replace e-mails, phone numbers, long digit runs and postcodes in the "
-                   "query text the report and tables show (searches use the original).")
+@no_scrub_option
 @retime_option
 @threads_option
 @quiet_option
 @json_option
 def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, ...],
-                 output: str, fuse: tuple[str, ...], baseline: str | None, k: int,
+                 output: str, fuse: tuple[str, ...], baseline: str | None, results: int,
                  metrics: tuple[str, ...], resamples: int, seed: int, judged_by: str,
                  ann: str, cache_dir: str | None, template: str | None, title: str | None,
-                 scrub: bool, retime: bool, threads: int | None, quiet: bool,
+                 no_scrub: bool, retime: bool, threads: int | None, quiet: bool,
                  as_json: bool) -> None:
     """Index, search, score, compare and analyse misses for every encoder in one go,
     and write report.html.
@@ -85,13 +84,13 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
 
     silver = {"auto": None, "silver": True, "human": False}[judged_by]
     js = JudgmentSet("judgments", Path(queries), Path(qrels), Path(qrels).name, silver=silver)
-    result = evaluate(catalogue, [js], encoders, output, fuse=fuse, baseline=baseline, k=k,
+    result = evaluate(catalogue, [js], encoders, output, fuse=fuse, baseline=baseline, k=results,
                       metrics=metrics or DEFAULT_METRICS, resamples=resamples, seed=seed,
                       ann=ann, cache_dir=cache_dir, template=template, title=title,
-                      scrub_queries=scrub, retime=retime, threads=threads, quiet=quiet,
+                      scrub_queries=not no_scrub, retime=retime, threads=threads, quiet=quiet,
                       notify=step(quiet or as_json))
     _finish(result, as_json)
-    if scrub and not as_json:
+    if not as_json:
         click.echo(result.bundle["setup"]["notes"]["privacy"])
 
 

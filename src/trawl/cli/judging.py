@@ -6,8 +6,9 @@ from __future__ import annotations
 import click
 
 from ..report import text
-from . import (echo_err, emit_json, flag, in_file, json_option, main, no_scrub_option,
-               out_option, quiet_option, reject, seed_option, show, template_option)
+from . import (cache_dir_option, catalogue_option, echo_err, emit_json, flag, in_file,
+               json_option, main, names_option, no_scrub_option, out_option, quiet_option,
+               reject, seed_option, show, template_option)
 
 
 @main.command()
@@ -47,12 +48,12 @@ from . import (echo_err, emit_json, flag, in_file, json_option, main, no_scrub_o
               help="How many nearest items each --neighbours encoder offers [10, fewer in "
                    "catalogues under 380 items].")
 @flag("--no-neighbours", help="Judge only the source and its 'related' items.")
-@out_option("--cache", "cache_dir", folder=True, default=None,
-            help="Embedding cache for the --neighbours and --check-with encoders "
-                 "[~/.cache/trawl].")
+@cache_dir_option
 @click.option("--typo-rate", type=float, default=0.15, show_default=True,
               help="Chance that a word of 4+ letters gets a typo (typo style).")
-@click.option("--llm-url", default=None, help="OpenAI-compatible server for the llm style.")
+@click.option("--llm-url", default=None,
+              help="Chat-completions-compatible server for the llm style (item text is sent "
+                   "to it; see --no-scrub).")
 @click.option("--llm-model", default=None, help="Model name to ask the --llm-url server for.")
 @click.option("--llm-examples", type=click.Path(dir_okay=False), default=None,
               metavar="QUERIES.tsv", help="Real queries shown to the model as style examples.")
@@ -63,8 +64,9 @@ from . import (echo_err, emit_json, flag, in_file, json_option, main, no_scrub_o
 @click.option("--llm-key-env", default="TRAWL_LLM_API_KEY", show_default=True,
               metavar="NAME", help="Environment variable holding the server's API key, if any.")
 @flag("--no-scrub", help="Send item text and --llm-examples to the chat server as they are "
-                         "(default: e-mails, phone numbers, long digit runs and postcodes are "
-                         "replaced by placeholders, and counted).")
+                         "(default: e-mails, phone numbers, long digit runs and postcodes in "
+                         "them are replaced by placeholders, and counted; the rest of the "
+                         "text is sent as written).")
 @template_option
 @json_option
 @quiet_option
@@ -143,7 +145,7 @@ def review() -> None:
 
     \b
     Example:
-      trawl review export silver.qrels silver.queries.tsv corpora/quillfern.jsonl -o review.csv
+      trawl review export silver.qrels silver.queries.tsv -c corpora/quillfern.jsonl -o review.csv
       trawl review import review.csv -c corpora/quillfern.jsonl -o reviewed.qrels
     """
 
@@ -151,7 +153,7 @@ def review() -> None:
 @review.command("export")
 @in_file("qrels")
 @in_file("queries")
-@in_file("catalogue")
+@catalogue_option(True, "Catalogue the judged items come from (titles, snippets, links).")
 @out_option(required=True,
             help="Sheet to write: .csv, or .xlsx with a drop-down for the verdict. With "
                  "--reviewers N: one sheet per reviewer, named STEM-1 ... STEM-N.")
@@ -190,7 +192,7 @@ def review_export(qrels: str, queries: str, catalogue: str, output: str,
 
     \b
     Example:
-      trawl review export silver.qrels silver.queries.tsv corpora/quillfern.jsonl \\
+      trawl review export silver.qrels silver.queries.tsv -c corpora/quillfern.jsonl \\
           -o review.csv --runs minilm.run --runs bm25.run --sample 40 --reviewers 2
     """
     from ..catalogue import load_catalogue
@@ -221,8 +223,7 @@ def review_export(qrels: str, queries: str, catalogue: str, output: str,
 
 @review.command("import")
 @in_file("sheets", nargs=-1, required=True)
-@click.option("-c", "--catalogue", required=True, type=click.Path(dir_okay=False),
-              help="Catalogue the sheets were made from (item ids are checked against it).")
+@catalogue_option(True, "Catalogue the sheets were made from (item ids are checked against it).")
 @out_option(required=True, help="Reviewed qrels to write.")
 @click.option("--base", type=click.Path(dir_okay=False), default=None,
               help="Judgments to merge into (e.g. the full silver qrels when the sheet holds "
@@ -259,14 +260,18 @@ def review_import(sheets: tuple[str, ...], catalogue: str, output: str, base: st
 @in_file("qrels_a")
 @in_file("qrels_b")
 @in_file("runs", nargs=-1, required=True)
+@names_option
 @click.option("-m", "--metric", default="ndcg@10", show_default=True,
               help="Metric the systems are ranked by.")
-@click.option("--resamples", type=int, default=2000, show_default=True,
-              help="Bootstrap resamples over queries for the intervals (0: none).")
+@click.option("--resamples", type=click.IntRange(min=0), default=2000, show_default=True,
+              help="Bootstrap resamples over queries for the intervals of tau and rho (0: "
+                   "none). Default 2,000, fewer than compare's 10,000: an interval's ends "
+                   "settle sooner than a small p-value does, and each resample re-scores "
+                   "every run under both sets.")
 @seed_option
 @json_option
-def agree(qrels_a: str, qrels_b: str, runs: tuple[str, ...], metric: str, resamples: int,
-          seed: int, as_json: bool) -> None:
+def agree(qrels_a: str, qrels_b: str, runs: tuple[str, ...], names: tuple[str, ...],
+          metric: str, resamples: int, seed: int, as_json: bool) -> None:
     """Do two judgment sets (silver vs reviewed, silver vs human) rank systems alike?
 
     Scores each run under both sets, then gives Kendall's tau-b and Spearman's rho
@@ -280,8 +285,8 @@ def agree(qrels_a: str, qrels_b: str, runs: tuple[str, ...], metric: str, resamp
     """
     from ..agreement import agree as agree_sets
     from ..judgments import read_qrels
-    from ..runs import read_run
+    from ..scores import read_runs
 
-    res = agree_sets(read_qrels(qrels_a), read_qrels(qrels_b), [read_run(r) for r in runs],
+    res = agree_sets(read_qrels(qrels_a), read_qrels(qrels_b), read_runs(runs, names),
                      metric=metric, resamples=resamples, seed=seed)
     show({**res.as_dict(), "qrels_a": qrels_a, "qrels_b": qrels_b}, as_json, text.agreement)

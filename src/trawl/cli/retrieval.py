@@ -5,8 +5,9 @@ from __future__ import annotations
 import click
 
 from ..report import text
-from . import (echo_err, in_file, json_option, main, out_option, quiet_option,
-               reject, show, template_option, threads_option)
+from . import (cache_dir_option, catalogue_option, echo_err, in_file, json_option, main,
+               out_option, quiet_option, reject, results_option, show, template_option,
+               threads_option)
 
 ENCODER_HELP = ("Encoder: minilm, minilm-int8, static:DIR, st:DIR[;query=PREFIX][;document=PREFIX] "
                 "or bm25[;k1=X][;b=Y].")
@@ -26,8 +27,7 @@ ENCODER_HELP = ("Encoder: minilm, minilm-int8, static:DIR, st:DIR[;query=PREFIX]
               help="HNSW candidate list while searching [128].")
 @click.option("--batch-size", type=int, default=32, show_default=True,
               help="Texts per encoder batch.")
-@out_option("--cache-dir", folder=True, default=None,
-            help="Embedding cache folder (default: $TRAWL_CACHE_DIR or ~/.cache/trawl).")
+@cache_dir_option
 @template_option
 @quiet_option
 @json_option
@@ -67,10 +67,9 @@ def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int 
 @in_file("queries")
 @out_option(required=True,
             help="TREC run to write; latency figures go to OUTPUT.latency.json.")
-@click.option("-k", "k", type=int, default=100, show_default=True, help="Results per query.")
-@click.option("--catalogue", type=click.Path(dir_okay=False), default=None,
-              help="Catalogue to check the index against (default: the file it was built "
-                   "from, if it is still there).")
+@results_option
+@catalogue_option(False, "Catalogue to check the index against (default: the file it was "
+                         "built from, if it is still there).")
 @click.option("--name", default=None,
               help="Run name for the tag column (default: output file name without extension).")
 @click.option("--warmup", type=int, default=5, show_default=True,
@@ -78,7 +77,7 @@ def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int 
 @threads_option
 @quiet_option
 @json_option
-def search(index: str, queries: str, output: str, k: int, catalogue: str | None,
+def search(index: str, queries: str, output: str, results: int, catalogue: str | None,
            name: str | None, warmup: int, threads: int | None, quiet: bool,
            as_json: bool) -> None:
     """Search an index with every query; write a TREC run and its latency figures.
@@ -91,7 +90,7 @@ def search(index: str, queries: str, output: str, k: int, catalogue: str | None,
     Example:
       trawl search idx/minilm qrels/quillfern-gold.queries.tsv -o runs/minilm.run
       trawl search idx/minilm queries.tsv -o runs/minilm-1t.run --threads 1
-      trawl search idx/bm25 queries.tsv -o runs/bm25.run -k 20 --json
+      trawl search idx/bm25 queries.tsv -o runs/bm25.run --results 20 --json
     """
     from ..index import open_recorded
     from ..latency import measure_search, write_latency
@@ -102,8 +101,8 @@ def search(index: str, queries: str, output: str, k: int, catalogue: str | None,
     if gone is not None:
         echo_err([f"warning: {gone} (the catalogue this index was built from) is gone; "
                   "cannot check the index is current (give --catalogue)"])
-    run, report = measure_search(idx, read_queries(queries), k, warmup=warmup, quiet=quiet,
-                                 name=name or name_from_path(output), threads=threads)
+    run, report = measure_search(idx, read_queries(queries), results, warmup=warmup,
+                                 quiet=quiet, name=name or name_from_path(output), threads=threads)
     write_run(output, run)
     data = {"run": output, "latency_file": str(write_latency(output, report)),
             **report.as_dict()}
@@ -113,12 +112,14 @@ def search(index: str, queries: str, output: str, k: int, catalogue: str | None,
 @main.command()
 @in_file("runs", nargs=-1, required=True)
 @out_option(required=True, help="Fused TREC run to write.")
-@click.option("--rrf-k", type=int, default=60, show_default=True,
-              help="RRF constant k in 1 / (k + rank).")
-@click.option("--depth", type=int, default=None,
+@click.option("--rank-offset", type=click.IntRange(min=0), default=60, show_default=True,
+              metavar="C", help="Constant added to every rank, each run giving an item "
+                                "1 / (C + rank): larger C weighs lower ranks more evenly "
+                                "with the top ones.")
+@click.option("--top", type=click.IntRange(min=1), default=None, metavar="N",
               help="Ranks read from each run and kept in the fused run (default: all).")
 @click.option("--name", default=None, help="Run name for the tag column (default: rrf-A+B).")
-def fuse(runs: tuple[str, ...], output: str, rrf_k: int, depth: int | None,
+def fuse(runs: tuple[str, ...], output: str, rank_offset: int, top: int | None,
          name: str | None) -> None:
     """Fuse runs with Reciprocal Rank Fusion, e.g. a dense and a BM25 run into a hybrid.
 
@@ -130,7 +131,8 @@ def fuse(runs: tuple[str, ...], output: str, rrf_k: int, depth: int | None,
     from ..runs import read_run, write_run
 
     reject([(len(runs) < 2, f"fuse needs at least 2 runs, got {len(runs)}")])
-    fused = reciprocal_rank_fusion([read_run(r) for r in runs], k=rrf_k, depth=depth, name=name)
+    fused = reciprocal_rank_fusion([read_run(r) for r in runs], k=rank_offset, depth=top,
+                                   name=name)
     write_run(output, fused)
     click.echo(text.fused(output, fused.name, len(fused)))
 
@@ -138,10 +140,12 @@ def fuse(runs: tuple[str, ...], output: str, rrf_k: int, depth: int | None,
 @main.command()
 @out_option(folder=True, required=True,
             help="Folder for the static model (replaced atomically).")
-@click.option("--pca-dims", type=int, default=256, show_default=True,
-              help="Vector size after PCA (at most 384).")
+@click.option("--vector-size", type=click.IntRange(min=1, max=384), default=256,
+              show_default=True, metavar="N",
+              help="Numbers per vector of the static model (at most the bundled model's "
+                   "384); smaller is faster and coarser.")
 @quiet_option
-def distill(output: str, pca_dims: int, quiet: bool) -> None:
+def distill(output: str, vector_size: int, quiet: bool) -> None:
     """Distil a static encoder from the bundled model (model2vec), offline.
 
     Use the result as -e static:DIR: much faster to index and query, usually less
@@ -157,5 +161,5 @@ def distill(output: str, pca_dims: int, quiet: bool) -> None:
     from ..distill import distill_static
 
     start = time.perf_counter()
-    path = distill_static(output, pca_dims=pca_dims, quiet=quiet)
-    click.echo(text.distilled(str(path), pca_dims, time.perf_counter() - start))
+    path = distill_static(output, pca_dims=vector_size, quiet=quiet)
+    click.echo(text.distilled(str(path), vector_size, time.perf_counter() - start))

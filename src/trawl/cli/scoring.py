@@ -8,8 +8,9 @@ from typing import Any
 import click
 
 from ..report import text
-from . import (catalogue_option, in_file, json_option, main, metrics_option, quiet_option,
-               reject, resamples_option, seed_option, show, silver_option)
+from . import (catalogue_option, in_file, json_option, main, metrics_option, names_option,
+               no_scrub_option, quiet_option, reject, resamples_option, seed_option, show,
+               silver_option)
 
 
 def csv_option(help: str) -> Callable:
@@ -45,18 +46,21 @@ def _show(qrels: str, flagged: bool, report: Any, as_json: bool,
 @main.command()
 @in_file("qrels")
 @in_file("runs", nargs=-1, required=True)
+@names_option
 @catalogue_option(False, "Catalogue of the judged items: adds means per destination type.")
 @metrics_option
-@resamples_option(0, 0, "Bootstrap resamples for a 95% interval around each mean (0: none).")
+@resamples_option(0, 0, "Bootstrap resamples for a 95% interval around each mean. Default 0 "
+                        "(no interval): score is the quick look, and whether two runs differ "
+                        "is compare's question, which resamples by default.")
 @seed_option
 @click.option("--per-query", "per_query_path", type=click.Path(dir_okay=False), default=None,
               metavar="PATH", help="Write the per-query scores to PATH (.csv or .json).")
 @csv_option("Write the table of means (one row per run, metric and type) to PATH as CSV.")
 @silver_option
 @json_option
-def score(qrels: str, runs: tuple[str, ...], catalogue: str | None, metrics: tuple[str, ...],
-          resamples: int, seed: int, per_query_path: str | None, csv_path: str | None,
-          silver: bool, as_json: bool) -> None:
+def score(qrels: str, runs: tuple[str, ...], names: tuple[str, ...], catalogue: str | None,
+          metrics: tuple[str, ...], resamples: int, seed: int, per_query_path: str | None,
+          csv_path: str | None, silver: bool, as_json: bool) -> None:
     """Score TREC runs against qrels: means over all queries and, with --catalogue, per
     destination type.
 
@@ -78,8 +82,8 @@ def score(qrels: str, runs: tuple[str, ...], catalogue: str | None, metrics: tup
     reject([(per_query_path is not None and not per_query_path.endswith((".csv", ".json")),
              f"--per-query {per_query_path}: name a .csv or .json file")])
     cat = _catalogue(catalogue)
-    report = score_runs(read_qrels(qrels), read_runs(runs), ms, cat, resamples=resamples,
-                        seed=seed)
+    report = score_runs(read_qrels(qrels), read_runs(runs, names), ms, cat,
+                        resamples=resamples, seed=seed)
     if per_query_path is not None:
         write_rows(per_query_path, report.per_query_rows(), per_query_columns(report.metrics))
     if csv_path is not None:
@@ -93,10 +97,13 @@ def score(qrels: str, runs: tuple[str, ...], catalogue: str | None, metrics: tup
 @click.option("--baseline", default=None, metavar="RUN",
               help="Run every other run is compared with: a run's name or one of the RUN "
                    "files (default: the first RUN).")
+@names_option
 @catalogue_option(False, "Catalogue of the judged items: adds comparisons per destination "
                          "type.")
 @metrics_option
-@resamples_option(10000, 1, "Bootstrap resamples and random sign flips.")
+@resamples_option(10000, 1, "Bootstrap resamples and random sign flips. Default 10,000: "
+                            "p-values near the significance level, after Holm's correction, "
+                            "need that many to be stable to the second decimal.")
 @seed_option
 @click.option("--interval", "method", type=click.Choice(["percentile", "bca"]),
               default="percentile", show_default=True,
@@ -110,7 +117,8 @@ def score(qrels: str, runs: tuple[str, ...], catalogue: str | None, metrics: tup
 @silver_option
 @json_option
 @quiet_option
-def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, catalogue: str | None,
+def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, names: tuple[str, ...],
+            catalogue: str | None,
             metrics: tuple[str, ...], resamples: int, seed: int, method: str, alpha: float,
             long_table: bool, csv_path: str | None, silver: bool, as_json: bool,
             quiet: bool) -> None:
@@ -134,7 +142,7 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, catalogue: 
             (len(runs) < 2, "compare needs at least two RUN files (a baseline and one more)")])
     ms = _metrics(metrics)
     cat = _catalogue(catalogue)
-    loaded = read_runs(runs)
+    loaded = read_runs(runs, names)
     if baseline in runs:  # a file name: the run read from it
         baseline = loaded[runs.index(baseline)].name
     comp = compare_runs(read_qrels(qrels), loaded, ms, baseline, resamples, seed, method,
@@ -148,20 +156,20 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, catalogue: 
 @in_file("qrels")
 @in_file("run")
 @catalogue_option(True, "Catalogue of the judged and retrieved items (their types).")
-@click.option("-k", "k", type=click.IntRange(min=1), default=10, show_default=True,
-              help="Cutoff for hit@k and for counting a miss.")
+@click.option("--cutoff", type=click.IntRange(min=1), default=10, show_default=True,
+              metavar="K", help="Rank cut-off: a query whose first relevant item is below "
+                                "rank K is a miss (hit@K counts the others).")
 @click.option("--worst", type=click.IntRange(min=0), default=5, show_default=True,
               help="Worst queries listed per destination type.")
 @click.option("--queries", "queries_path", type=click.Path(dir_okay=False), default=None,
               help="Queries TSV, to show the text of the worst queries.")
-@click.option("--scrub", is_flag=True,
-              help="Replace e-mails, phone numbers, long digit runs and postcodes in the "
-                   "query text shown (needs --queries); prints how many were replaced.")
+@no_scrub_option
 @csv_option("Write the per-type table to PATH as CSV.")
 @silver_option
 @json_option
-def misses(qrels: str, run: str, catalogue: str, k: int, worst: int, queries_path: str | None,
-           scrub: bool, csv_path: str | None, silver: bool, as_json: bool) -> None:
+def misses(qrels: str, run: str, catalogue: str, cutoff: int, worst: int,
+           queries_path: str | None, no_scrub: bool, csv_path: str | None, silver: bool,
+           as_json: bool) -> None:
     """Where a run fails, by destination type of the wanted item: hit@1, hit@k, misses,
     median rank of the first relevant item, the types of what came first instead, and
     the worst queries with the item that won.
@@ -169,8 +177,7 @@ def misses(qrels: str, run: str, catalogue: str, k: int, worst: int, queries_pat
     \b
     Example:
       trawl misses qrels/quillfern-gold.qrels minilm.run -c corpora/quillfern.jsonl
-      trawl misses silver.qrels bm25.run -c items.jsonl -k 5 --queries silver.queries.tsv
-      trawl misses logs.qrels bm25.run -c items.jsonl --queries logs.queries.tsv --scrub
+      trawl misses silver.qrels bm25.run -c items.jsonl --cutoff 5 --queries silver.queries.tsv
     """
     from ..judgments import read_qrels
     from ..misses import CSV_COLUMNS, miss_table
@@ -178,11 +185,11 @@ def misses(qrels: str, run: str, catalogue: str, k: int, worst: int, queries_pat
     from ..runs import read_run
     from ..tables import write_csv
 
-    reject([(scrub and queries_path is None,
-             "--scrub applies to query text; it needs --queries")])
+    reject([(no_scrub and queries_path is None,
+             "--no-scrub applies to query text; it needs --queries")])
     texts = read_queries(queries_path) if queries_path is not None else None
-    rep = miss_table(read_qrels(qrels), read_run(run), _catalogue(catalogue), k, worst, texts,
-                     scrub_queries=scrub)
+    rep = miss_table(read_qrels(qrels), read_run(run), _catalogue(catalogue), cutoff, worst,
+                     texts, scrub_queries=texts is not None and not no_scrub)
     if csv_path is not None:
         write_csv(csv_path, [r.as_dict() for r in rep.rows], CSV_COLUMNS)
     _show(qrels, silver, rep, as_json, text.misses)

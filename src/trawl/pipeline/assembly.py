@@ -61,7 +61,8 @@ def evaluation_entry(ld: LoadedSet, names: Sequence[str], baseline: str,
         "worst": base_misses.as_dict()["worst"],
     })
     return Evaluation(
-        name=js.name, label=js.label or js.name, silver=ld.silver, how=ld.how,
+        name=js.name, label=js.label or js.name, silver=ld.silver, origin=ld.origin,
+        how=ld.how,
         queries_file=str(js.queries), qrels_file=str(js.qrels), queries=len(ld.qrels),
         judgments=sum(len(v) for v in ld.qrels.values()), baseline=baseline,
         latency={n: latency_entry(latency[n]) for n in names},

@@ -181,6 +181,8 @@ class Evaluation:
     name: str
     label: str
     silver: bool = _doc("machine-made judgments: every figure is an estimate")
+    origin: str = _doc("who made the judgments: 'silver' (synthesis provenance beside the "
+                       "qrels, or declared), 'human' (declared by the user) or 'unknown'")
     how: str = _doc("how the judgments were made")
     queries_file: str
     qrels_file: str

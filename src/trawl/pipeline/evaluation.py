@@ -112,8 +112,8 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         evaluations.append(entry)
     agreed = _agreement(plan, agreement, loaded, searched, out) if agreement else None
     notes = setup_notes(systems, k, plan.depth, ann, cat, list(searched.values()))
-    if scrub_queries:
-        notes["privacy"] = scrub_note(scrubbed)
+    notes["privacy"] = scrub_note(scrubbed) if scrub_queries else (
+        "query text shown as given in the report and tables, not scrubbed of personal data")
     results = Results(
         FORMAT, title or f"Search evaluation of {Path(cat.path).name}", __version__,
         Setup(CatalogueInfo(cat.path, cat.fingerprint, len(cat), cat.type_counts()),
@@ -229,6 +229,9 @@ def _judged_by(ev: Evaluation, agreed: AgreementInfo | None) -> Evaluation:
     estimates, with the agreement measured against the other set when there is one."""
     from ..silver import MeasuredAgreement, silver_note
 
+    if ev.origin == "unknown":
+        return replace(ev, judged_by="judgments of unknown origin: not declared human, no "
+                                     "synthesis provenance found")
     if not ev.silver:
         return replace(ev, judged_by="human judgments")
     if agreed is None or ev.name not in (agreed.a, agreed.b):

@@ -18,7 +18,8 @@ class JudgmentSet:
     """Queries and their judgments, evaluated together.
 
     ``silver`` None means: silver when a ``trawl synth`` provenance file
-    (``PREFIX.jsonl`` beside ``PREFIX.qrels``) is present, human otherwise.
+    (``PREFIX.jsonl`` beside ``PREFIX.qrels``) is present, otherwise of unknown origin
+    (scored like human judgments but never called human); False declares them human.
     """
 
     name: str
@@ -38,6 +39,7 @@ class LoadedSet:
     qrels: Qrels
     silver: bool
     how: str
+    origin: str  # "silver", "human" (declared) or "unknown" (no provenance, not declared)
 
 
 def load_set(js: JudgmentSet) -> LoadedSet:
@@ -53,6 +55,7 @@ def load_set(js: JudgmentSet) -> LoadedSet:
                          + "; give the queries file that goes with these qrels")
     sidecar = find_provenance(js.qrels)
     silver = js.silver if js.silver is not None else sidecar is not None
+    origin = "silver" if silver else "human" if js.silver is False else "unknown"
     if js.how:
         how = js.how
     elif silver and sidecar is not None:
@@ -60,6 +63,7 @@ def load_set(js: JudgmentSet) -> LoadedSet:
     elif silver:
         how = "machine-made judgments (marked silver when run)"
     else:
-        how = "judged by people" if js.silver is False else (
-            "no synth provenance beside the qrels, so treated as human judgments")
-    return LoadedSet(js, queries, qrels, silver, how)
+        how = "judged by people" if origin == "human" else (
+            "origin unknown: no synthesis provenance beside the qrels, and not declared "
+            "human judgments")
+    return LoadedSet(js, queries, qrels, silver, how, origin)

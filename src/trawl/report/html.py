@@ -166,8 +166,7 @@ def _setup(bundle: Mapping[str, Any], looks: Mapping[str, Look]) -> Markup:
                    caption="Catalogue items per destination type")
     judg_rows = []
     for ev in bundle["evaluations"]:
-        kind = el("span", {"class_": "badge silver" if ev.get("silver") else "badge human"},
-                  "silver · estimates" if ev.get("silver") else "human")
+        kind = _badge(ev, "silver · estimates", "human", "origin unknown")
         judg_rows.append([ev["label"], kind, ev["queries"], ev["judgments"],
                           el("span", {"class_": "how"}, ev.get("how", ""))])
     judgments = _table(["judgment set", "kind", "queries", "judgments", "how it was made"],
@@ -205,13 +204,19 @@ def _scores_of(ev: Mapping[str, Any], metric: str,
     return {s["run"]: s for s in ev["scores"] if s["metric"] == metric and s["type"] == type_}
 
 
+def _badge(ev: Mapping[str, Any], silver: str, human: str, unknown: str) -> Markup:
+    """Who judged a set: silver, declared human, or neither known (never called human)."""
+    origin = ev.get("origin") or ("silver" if ev.get("silver") else "human")
+    words = {"silver": silver, "human": human, "unknown": unknown}[origin]
+    return el("span", {"class_": f"badge {origin}"}, words)
+
+
 def _evaluation(bundle: Mapping[str, Any], ev: Mapping[str, Any], number: int,
                 looks: Mapping[str, Look]) -> Markup:
     slug = _slug(ev["name"])
     anchor = f"eval-{slug}"
     primary = bundle["setup"]["primary"]
-    badge = el("span", {"class_": "badge silver" if ev.get("silver") else "badge human"},
-               "silver · estimates" if ev.get("silver") else "human judgments")
+    badge = _badge(ev, "silver · estimates", "human judgments", "judgments of unknown origin")
     intro = el("p", {"class_": "intro"}, badge, " ", f"{ev['queries']} queries, "
                f"{ev['judgments']} judgments ({ev.get('how', '')}). Baseline for "
                "comparisons: ", el("strong", None, ev["baseline"]), ".")

@@ -31,6 +31,7 @@ a{color:var(--accent)}
 border:1px solid currentColor;white-space:nowrap}
 .badge.silver{color:#4f555c;background:repeating-linear-gradient(135deg,#eceef0 0 6px,#e2e5e8 6px 12px)}
 .badge.human{color:var(--gold);background:#fbf1d8}
+.badge.unknown{color:#4f555c;background:#eceef0}
 .settings,.terms{display:grid;grid-template-columns:max-content 1fr;gap:.15rem 1rem;margin:.5rem 0}
 dt{font-weight:600;color:var(--muted)}dd{margin:0}
 .pair{display:flex;flex-wrap:wrap;gap:0 2rem}
