@@ -85,6 +85,21 @@ class RankedColumns(Mapping[str, tuple[tuple[str, float], ...]]):
                 + self.vocabulary.nbytes)
 
 
+def result_count(results: Mapping[str, Sequence[Any]], qid: str) -> int:
+    """Results a run lists for ``qid``, without making tuples of columns."""
+    if isinstance(results, RankedColumns):
+        i = results.position(qid)
+        return 0 if i < 0 else int(results.offsets[i + 1] - results.offsets[i])
+    return len(results.get(qid, ()))
+
+
+def listed_items(results: Mapping[str, Sequence[tuple[str, float]]]) -> set[str]:
+    """Every item id a run lists."""
+    if isinstance(results, RankedColumns):
+        return results.distinct_items()
+    return {item for pairs in results.values() for item, _ in pairs}
+
+
 # --- reading -----------------------------------------------------------------------------------
 
 def read_run_columns(path: str | Path) -> tuple[str, RankedColumns] | None:
