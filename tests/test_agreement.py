@@ -9,10 +9,10 @@ import numpy as np
 import pytest
 
 from trawl.agreement import agree
-from trawl.stats import cohen_kappa, kendall_tau_b, spearman_rho, wilson_interval
 from trawl.errors import UsageError
 from trawl.judgments import write_qrels
 from trawl.runs import make_run, write_run
+from trawl.stats import cohen_kappa, kendall_tau_b, spearman_rho, wilson_interval
 
 from .conftest import invoke
 

@@ -8,10 +8,10 @@ import json
 import pytest
 
 from trawl.catalogue import load_catalogue
+from trawl.destinations import query_types
 from trawl.errors import UsageError
 from trawl.judgments import read_qrels
 from trawl.runs import Run, make_run, read_run
-from trawl.destinations import query_types
 from trawl.scores import read_runs, score_runs
 
 from .conftest import invoke
