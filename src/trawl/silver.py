@@ -61,12 +61,16 @@ def write_silver(prefix: str | Path, silver: SilverSet) -> list[Path]:
 
 def find_provenance(qrels_path: str | Path) -> Path | None:
     """The provenance sidecar of ``PREFIX.qrels`` (``PREFIX.jsonl``), or None when there is
-    none: no such file, or one whose first record is not synthesis provenance."""
+    none: no such file, or one that is not the synthesis provenance of these judgments
+    (a record without the provenance keys, or a judged query it does not describe)."""
     path = Path(qrels_path)
     sidecar = path.with_suffix(PROVENANCE_SUFFIX)
     if path.suffix != QRELS_SUFFIX or not sidecar.is_file():
         return None
-    return sidecar if _is_provenance(sidecar) else None
+    described = _provenance_qids(sidecar)
+    if described is None or not _judged_qids(path) <= described:
+        return None
+    return sidecar
 
 
 def is_silver(qrels_path: str | Path) -> bool:
@@ -74,14 +78,31 @@ def is_silver(qrels_path: str | Path) -> bool:
     return find_provenance(qrels_path) is not None
 
 
-def _is_provenance(sidecar: Path) -> bool:
+def _provenance_qids(sidecar: Path) -> set[str] | None:
+    """The qids a synthesis provenance file describes; None when any record is not
+    synthesis provenance (or the file cannot be read as JSONL)."""
+    qids: set[str] = set()
     try:
         with sidecar.open(encoding="utf-8-sig") as fh:
-            first = next((line for line in fh if line.strip()), "")
-        record = json.loads(first)
+            for line in fh:
+                if not line.strip():
+                    continue
+                record = json.loads(line)
+                if not isinstance(record, dict) or not all(k in record for k in PROVENANCE_KEYS):
+                    return None
+                qids.add(str(record["qid"]))
     except (OSError, UnicodeDecodeError, json.JSONDecodeError):
-        return False
-    return isinstance(record, dict) and all(k in record for k in PROVENANCE_KEYS)
+        return None
+    return qids or None
+
+
+def _judged_qids(qrels_path: Path) -> set[str]:
+    """The first field of every line: the judged query ids, without checking the rest."""
+    try:
+        with qrels_path.open(encoding="utf-8-sig", errors="replace") as fh:
+            return {line.split(None, 1)[0] for line in fh if line.strip()}
+    except OSError:
+        return set()
 
 
 def _records(path: Path, what: str):
