@@ -146,11 +146,11 @@ def files(tmp_path, monkeypatch):
 def test_search_threads_is_recorded_and_restored(files):
     before = _counts()
     n = _other(before[0])
-    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "--results", "5",
-                     "--threads", n, "-q"])
+    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run",
+                     "--results", "5", "--threads", n, "-q"])
     assert result.exit_code == 0, result.stderr
     assert json.loads((files / "r.run.latency.json").read_text())["threads"] == n
-    assert f"; {n} thread(s) on " in result.stdout
+    assert f"; {n} thread{'' if n == 1 else 's'} on " in result.stdout
     assert _counts() == before
 
 

@@ -140,7 +140,7 @@ def comparison(d: Mapping[str, Any], long: bool = False) -> str:
                  fmt.mark(r["diff"], r["p_corrected"], alpha)] for r in rows]
         out.append(text_table(["type", "queries", "run", "metric", "diff",
                                f"{100 * (1 - alpha):g}% interval", "p boot", "p rand",
-                               "p Holm", "effect", ""], body, "lrll" + "r" * 6 + "l"))
+                               "p Holm", "effect", "mark"], body, "lrll" + "r" * 6 + "l"))
     else:
         out += _compact_comparison(d)
     out.append(f"marks: {fmt.MARK_LEGEND}")
@@ -342,13 +342,17 @@ def index_built(d: Mapping[str, Any]) -> str:
 def search(d: Mapping[str, Any], queries: int) -> str:
     """Latency table and what was written (``LatencyReport.as_dict()`` with ``run`` and
     ``latency_file``); ``queries``: how many the run holds."""
-    table = plain_table([[d["encoder"], d["p50_ms"], d["p95_ms"], d["p99_ms"],
-                          d["batch_queries_per_s"], d["index_bytes"], d["bytes_per_item"]]],
+    from ..scores import count
+
+    table = plain_table([[d["encoder"], fmt.ms(d["p50_ms"]), fmt.ms(d["p95_ms"]),
+                          fmt.ms(d["p99_ms"]), f"{d['batch_queries_per_s']:.0f}",
+                          d["index_bytes"], f"{d['bytes_per_item']:.0f}"]],
                         ["encoder", "p50 ms", "p95 ms", "p99 ms", "batch q/s", "index bytes",
                          "bytes/item"])
-    return (f"{table}\nwrote {d['run']} ({queries} queries, top {d['k']}) and "
-            f"{d['latency_file']} ({d['queries_timed']} queries timed one at a time, "
-            f"{d['warmup']} warm-up excluded; {d['threads']} thread(s) on {d['cpu']})")
+    return (f"{table}\nwrote {d['run']} ({count(queries, 'query', 'queries')}, top {d['k']}) "
+            f"and {d['latency_file']} ({count(d['queries_timed'], 'query', 'queries')} timed "
+            f"one at a time, {d['warmup']} warm-up excluded; "
+            f"{count(d['threads'], 'thread')} on {d['cpu']})")
 
 
 def fused(output: str, name: str, queries: int) -> str:
