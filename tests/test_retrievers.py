@@ -48,7 +48,8 @@ def test_bad_specs_list_the_allowed_forms(spec, fragment):
     with pytest.raises(UsageError) as err:
         parse_spec(spec)
     assert fragment in str(err.value)
-    assert "allowed forms: minilm, minilm-int8, static:DIR, st:DIR" in str(err.value)
+    assert ("allowed forms: minilm, minilm-int8, minilm-onnx, minilm-onnx-int8, static:DIR, "
+            "st:DIR") in str(err.value)
 
 
 def test_missing_model_folder_says_how_to_get_one(tmp_path):

@@ -110,7 +110,8 @@ def test_index_rejects_unknown_encoder_before_reading_anything(files):
     result = invoke(["index", files / "missing.jsonl", "-e", "e5-large", "-o", files / "idx"])
     assert result.exit_code == 2
     assert result.stderr.startswith("error: encoder 'e5-large': unknown encoder 'e5-large'; "
-                                    "allowed forms: minilm, minilm-int8, static:DIR")
+                                    "allowed forms: minilm, minilm-int8, minilm-onnx, "
+                                    "minilm-onnx-int8, static:DIR")
 
 
 @pytest.mark.slow

@@ -1,8 +1,9 @@
 """On-disk index: manifest, vectors, id order, embedding cache, staleness checks, search.
 
 An index folder holds ``manifest.json`` (what was built, from what, with which library
-versions), ``ids.txt`` (one item id per line, catalogue order) and either
-``vectors.npy`` (+ ``hnsw.faiss`` for an HNSW index) or a ``bm25/`` folder. Everything
+versions), ``ids.txt`` (one item id per line, catalogue order) and either the vector
+store's files (``vectors.npy`` for fp32, + ``hnsw.faiss`` for an HNSW index; int8 and
+binary stores in ``trawl.stores``) or a ``bm25/`` folder. Everything
 except the manifest's ``build`` section is a pure function of the inputs, so rebuilding
 gives byte-identical files.
 

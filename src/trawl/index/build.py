@@ -32,7 +32,8 @@ from ..files import atomic_write
 from ..progress import progress
 from ..retrievers.loading import EncoderLoader, default_loader
 from ..retrievers.spec import EncoderSpec, as_spec
-from .manifest import (ANN_KINDS, HNSW_FILE, IDS, LEXICAL_DIR, MANIFEST, VECTORS, IndexInfo,
+from ..stores import StoreSettings, write_store
+from .manifest import (ANN_KINDS, HNSW_FILE, IDS, LEXICAL_DIR, MANIFEST, IndexInfo,
                        info_from_manifest, make_manifest, package_version, write_json)
 
 EMBED_CHUNK = 256   # texts per cache commit: the unit an interrupted build resumes from
@@ -60,11 +61,13 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
                 ann: str = "exact", cache_dir: str | Path | None = None,
                 batch_size: int = DEFAULT_BATCH_SIZE, quiet: bool = False,
                 hnsw: HnswParams | None = None, loader: EncoderLoader | None = None,
-                engine: Engine | None = None) -> IndexInfo:
+                engine: Engine | None = None, store: StoreSettings | None = None) -> IndexInfo:
     """Build (or incrementally update) the index of ``catalogue`` with encoder ``spec``
     (parsed already, or a spec string parsed here); ``engine`` says where texts are
-    embedded (default: this process)."""
+    embedded (default: this process); ``store`` how vectors are kept (default fp32)."""
     enc_spec = as_spec(spec)
+    store = store or StoreSettings()
+    _check_store(enc_spec, ann, store)
     if ann not in ANN_KINDS:
         raise UsageError(f"ann={ann!r} is not one of: {', '.join(ANN_KINDS)}")
     if enc_spec.lexical and ann != "exact":
@@ -90,17 +93,20 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
             if enc_spec.lexical:
                 fingerprint, dim, embedded = _write_lexical(catalogue, enc_spec, tmp)
                 ann_params: dict[str, Any] = {}
+                section = runtime = None
             else:
                 encoder = loader.encoder(enc_spec)
                 fingerprint = encoder.fingerprint
                 vectors, embedded = _embed(catalogue, encoder, cache_root, batch_size, quiet,
                                            engine)
                 dim = int(vectors.shape[1])
-                ann_params = _write_dense(vectors, ann, hnsw or HnswParams(), tmp)
+                ann_params, section = _write_dense(vectors, ann, hnsw or HnswParams(), store,
+                                                   tmp)
+                runtime = encoder.describe() if hasattr(encoder, "describe") else None
             _write_ids(tmp / IDS, catalogue.ids)
             seconds = time.perf_counter() - start
             manifest = make_manifest(catalogue, enc_spec, fingerprint, dim, ann, ann_params,
-                                     embedded, seconds, engine.name)
+                                     embedded, seconds, engine.name, section, runtime)
             write_json(tmp / MANIFEST, manifest)
             with swap_lock(out, shared=False):
                 _swap_into_place(tmp, out)
@@ -182,11 +188,24 @@ class _RowStore:
         assert self._matrix is not None  # a catalogue has at least one item
         return self._matrix
 
-def _write_dense(vectors: np.ndarray, ann: str, hnsw: HnswParams, folder: Path) -> dict:
-    with atomic_write(folder / VECTORS, "wb") as fh:
-        np.save(fh, vectors, allow_pickle=False)
+def _check_store(spec: EncoderSpec, ann: str, store: StoreSettings) -> None:
+    if store.kind == "fp32":
+        return
+    if spec.lexical:
+        raise UsageError(f"vector store {store.kind!r} applies to dense encoders; bm25 keeps "
+                         "an inverted index, not vectors")
+    if ann != "exact":
+        raise UsageError(f"vector store {store.kind!r} is searched exhaustively; ann={ann!r} "
+                         "keeps its own fp32 vectors, so use store 'fp32' with it")
+
+
+def _write_dense(vectors: np.ndarray, ann: str, hnsw: HnswParams, store: StoreSettings,
+                 folder: Path) -> tuple[dict, dict]:
+    """Write the vector store (and the HNSW graph); returns the search parameters and the
+    store's manifest section."""
+    section = write_store(vectors, store, folder)
     if ann == "exact":
-        return {"metric": "inner_product"}
+        return {"metric": "inner_product"}, section
     import faiss
 
     index = faiss.IndexHNSWFlat(vectors.shape[1], hnsw.m, faiss.METRIC_INNER_PRODUCT)
@@ -199,7 +218,7 @@ def _write_dense(vectors: np.ndarray, ann: str, hnsw: HnswParams, folder: Path) 
         faiss.omp_set_num_threads(threads)
     faiss.write_index(index, str(folder / HNSW_FILE))
     return {"metric": "inner_product", "m": hnsw.m, "ef_construction": hnsw.ef_construction,
-            "ef_search": hnsw.ef_search}
+            "ef_search": hnsw.ef_search}, section
 
 
 def _write_lexical(catalogue: Catalogue, spec: EncoderSpec, folder: Path) -> tuple[str, int, int]:

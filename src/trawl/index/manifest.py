@@ -20,6 +20,7 @@ from ..catalogue import Catalogue
 from ..errors import InputError
 from ..files import atomic_write
 from ..retrievers.spec import EncoderSpec
+from ..stores import store_settings_from
 
 FORMAT = "trawl-index/1"
 MANIFEST = "manifest.json"
@@ -52,6 +53,8 @@ class IndexInfo:
     seconds: float
     items_per_s: float
     bytes: int                      # size of the index folder
+    store: str = "fp32"             # how vectors are kept: fp32, int8, binary+int8, binary+fp32
+    vector_bytes: int = 0           # bytes of the vectors (codes) searched; 0 for bm25
 
     def as_dict(self) -> dict[str, Any]:
         return {k: (dict(v) if isinstance(v, Mapping) else v) for k, v in self.__dict__.items()}
@@ -73,19 +76,27 @@ def read_manifest(folder: str | Path) -> dict[str, Any]:
 
 def make_manifest(catalogue: Catalogue, spec: EncoderSpec, fingerprint: str, dim: int, ann: str,
               ann_params: dict, embedded: int, seconds: float,
-              engine: str = "local") -> dict[str, Any]:
+              engine: str = "local", store: Mapping[str, Any] | None = None,
+              runtime: Mapping[str, Any] | None = None) -> dict[str, Any]:
+    """The manifest; ``store`` is the vector store's section (stores.write_store) and
+    ``runtime`` what ran an ONNX encoder (export, opset, onnxruntime version)."""
     packages = (["bm25s"] if spec.lexical else
                 ["model2vec"] if spec.kind == "static" else
+                ["onnxruntime"] if "onnx" in spec.kind else
                 ["torch", "transformers", "sentence-transformers"])
     packages += ["numpy"] + ([] if spec.lexical else ["faiss-cpu"])
+    encoder = {**spec.as_dict(), "fingerprint": fingerprint, "dim": dim,
+               "normalised": not spec.lexical}
+    if runtime:
+        encoder["runtime"] = dict(runtime)
     return {
         "format": FORMAT,
-        "encoder": {**spec.as_dict(), "fingerprint": fingerprint, "dim": dim,
-                    "normalised": not spec.lexical},
+        "encoder": encoder,
         "catalogue": {"path": str(Path(catalogue.path).resolve()),
                       "fingerprint": catalogue.fingerprint, "items": len(catalogue),
                       "template": catalogue.template.pattern},
         "search": {"ann": ann, **ann_params},
+        **({"store": dict(store)} if store else {}),
         "versions": {"trawl": __version__, **{p: package_version(p) for p in packages}},
         # the only part that differs between two builds of the same inputs
         "build": {"created_at": datetime.now(timezone.utc).isoformat(timespec="seconds"),
@@ -104,7 +115,16 @@ def info_from_manifest(folder: Path, m: Mapping[str, Any]) -> IndexInfo:
         ann=search["ann"], ann_params={k: v for k, v in search.items() if k != "ann"},
         versions=dict(m["versions"]), created_at=build["created_at"],
         embedded=build["embedded"], reused=build["reused"], seconds=build["seconds"],
-        items_per_s=build["items_per_s"], bytes=folder_bytes(folder))
+        items_per_s=build["items_per_s"], bytes=folder_bytes(folder),
+        **_store_info(m))
+
+
+def _store_info(m: Mapping[str, Any]) -> dict[str, Any]:
+    if m["encoder"]["dim"] == 0:
+        return {"store": "none", "vector_bytes": 0}
+    store = m.get("store") or {}
+    return {"store": store_settings_from(store).label, "vector_bytes": store.get(
+        "vector_bytes", m["catalogue"]["items"] * m["encoder"]["dim"] * 4)}
 
 
 def folder_bytes(folder: Path) -> int:

@@ -19,8 +19,9 @@ from ..ranking import id_ranks, top_k
 from ..retrievers.loading import EncoderLoader, default_loader
 from ..retrievers.spec import EncoderSpec, as_spec, parse_spec
 from ..runs import Run
+from ..stores import StoreSettings, load_store, store_settings_from
 from .build import build_index, swap_lock
-from .manifest import HNSW_FILE, IDS, LEXICAL_DIR, VECTORS, IndexInfo, folder_bytes, \
+from .manifest import HNSW_FILE, IDS, LEXICAL_DIR, IndexInfo, folder_bytes, \
     info_from_manifest, read_manifest
 
 QUERY_BATCH = 64    # queries encoded together by Index.search
@@ -31,22 +32,24 @@ REBUILD = "trawl index {cat} -e {spec} -o {out}"
 
 def open_index(out_dir: str | Path, catalogue: Catalogue | None = None,
                spec: EncoderSpec | str | None = None, *,
-               loader: EncoderLoader | None = None) -> Index:
-    """Open an index for search, refusing a changed catalogue or a different encoder
-    (``spec``: parsed already, or a spec string parsed here). Opening waits while a
+               loader: EncoderLoader | None = None, store: StoreSettings | None = None) -> Index:
+    """Open an index for search, refusing a changed catalogue, a different encoder
+    (``spec``: parsed already, or a spec string parsed here) or, when ``store`` is given,
+    vectors kept another way. Opening waits while a
     rebuild swaps the folder, so every file comes from one build (``build.swap_lock``)."""
     folder = Path(out_dir)
     with swap_lock(folder, shared=True):
-        return _open(folder, catalogue, spec, loader)
+        return _open(folder, catalogue, spec, loader, store)
 
 
 def _open(folder: Path, catalogue: Catalogue | None, spec: EncoderSpec | str | None,
-          loader: EncoderLoader | None) -> Index:
+          loader: EncoderLoader | None, store: StoreSettings | None = None) -> Index:
     manifest = read_manifest(folder)
     recorded = manifest["encoder"]["spec"]  # canonical: equal strings are equal specs
     wanted = as_spec(spec, check_paths=False) if spec is not None else None
     built = wanted if wanted is not None and str(wanted) == recorded else \
         parse_spec(recorded, check_paths=False)
+    _refuse_other_store(folder, manifest, store)
     if wanted is not None and wanted != built:
         raise EncoderMismatchError(
             f"index {folder} was built with encoder {built}, not {wanted}; search it as "
@@ -67,6 +70,20 @@ def open_recorded(out_dir: str | Path, catalogue: str | Path | None = None
     path = catalogue or (recorded if Path(recorded).is_file() else None)
     cat = load_catalogue(path, manifest["catalogue"]["template"]) if path else None
     return open_index(out_dir, cat), None if path else recorded
+
+
+def _refuse_other_store(folder: Path, manifest: Mapping[str, Any],
+                        wanted: StoreSettings | None) -> None:
+    """Raise when the index keeps its vectors another way than ``wanted``."""
+    if wanted is None or manifest["encoder"]["dim"] == 0:
+        return
+    kept = store_settings_from(manifest.get("store"))
+    if kept != wanted:
+        fix = REBUILD.format(cat=manifest["catalogue"]["path"], spec=manifest["encoder"]["spec"],
+                             out=folder)
+        raise StaleIndexError(
+            f"index {folder} keeps {kept.label} vectors, not {wanted.label}; search it with "
+            f"store {kept.kind!r}, or rebuild it: `{fix} --store {wanted.kind}`")
 
 
 def _refuse_stale(folder: Path, manifest: Mapping[str, Any], catalogue: Catalogue,
@@ -129,10 +146,7 @@ class Index:
             index = faiss.read_index(str(self.path / HNSW_FILE))
             index.hnsw.efSearch = int(search["ef_search"])
             return index
-        vectors = np.load(self.path / VECTORS, allow_pickle=False)
-        index = faiss.IndexFlatIP(vectors.shape[1])
-        index.add(np.ascontiguousarray(vectors, dtype=np.float32))
-        return index
+        return load_store(self.path, self.manifest.get("store"))
 
     def encoder(self):
         """The query encoder, checked against the weights the index was built with."""

@@ -78,6 +78,10 @@ class EncoderLoader:
                 from .static import StaticEncoder
 
                 self._encoders[spec] = StaticEncoder(spec, self)
+            elif "onnx" in spec.kind:
+                from .onnx import OnnxEncoder
+
+                self._encoders[spec] = OnnxEncoder(spec, self)
             else:
                 from .dense import TransformerEncoder
 

@@ -4,6 +4,10 @@ No model library is imported here, so parsing a spec is cheap. The forms:
 
 - ``minilm``        the bundled all-MiniLM-L6-v2 (dense, L2-normalised)
 - ``minilm-int8``   the same model with its Linear layers dynamically quantised to int8
+- ``minilm-onnx``   the same model exported to ONNX, run by onnxruntime (same vectors)
+- ``minilm-onnx-int8``  the ONNX export with onnxruntime's dynamic int8 quantisation
+- ``onnx:DIR``      a folder with ``model.onnx`` and the model's ``tokenizer.json``; optional
+                    ``;query=PREFIX`` and ``;document=PREFIX`` as for ``st:``
 - ``st:DIR``        any local sentence-transformers folder; optional ``;query=PREFIX`` and
                     ``;document=PREFIX`` for models trained with prefixes
 - ``static:DIR``    a model2vec static model (e.g. from ``trawl distill``)
@@ -21,8 +25,11 @@ from typing import Any
 
 from ..errors import UsageError
 
-SPEC_FORMS = ("minilm", "minilm-int8", "static:DIR", "st:DIR[;query=PREFIX][;document=PREFIX]",
-              "bm25[;k1=X][;b=Y]")
+SPEC_FORMS = ("minilm", "minilm-int8", "minilm-onnx", "minilm-onnx-int8", "static:DIR",
+              "st:DIR[;query=PREFIX][;document=PREFIX]",
+              "onnx:DIR[;query=PREFIX][;document=PREFIX]", "bm25[;k1=X][;b=Y]")
+BUNDLED_KINDS = ("minilm", "minilm-int8", "minilm-onnx", "minilm-onnx-int8")
+FOLDER_KINDS = ("st", "static", "onnx")
 BM25_K1 = 1.5   # bm25s' defaults (its "lucene" variant), the reference configuration
 BM25_B = 0.75
 
@@ -31,8 +38,8 @@ BM25_B = 0.75
 class EncoderSpec:
     """A parsed ``-e`` value; equal specs produce identical vectors (given equal weights)."""
 
-    kind: str                      # minilm | minilm-int8 | st | static | bm25
-    path: str = ""                 # model folder for st/static (absolute)
+    kind: str                      # one of BUNDLED_KINDS or FOLDER_KINDS, or bm25
+    path: str = ""                 # model folder for st/static/onnx (absolute)
     query_prefix: str = ""
     document_prefix: str = ""
     k1: float = BM25_K1
@@ -44,7 +51,7 @@ class EncoderSpec:
 
     def __str__(self) -> str:
         """Canonical spec string (defaults omitted), round-trips through ``parse_spec``."""
-        if self.kind in ("st", "static"):
+        if self.kind in FOLDER_KINDS:
             out = f"{self.kind}:{self.path}"
         else:
             out = self.kind
@@ -63,7 +70,7 @@ class EncoderSpec:
         out: dict[str, Any] = {"spec": str(self), "kind": self.kind}
         if self.path:
             out["path"] = self.path
-        if self.kind == "st":
+        if self.kind in ("st", "onnx"):
             out.update(query_prefix=self.query_prefix, document_prefix=self.document_prefix)
         if self.lexical:
             out.update(k1=self.k1, b=self.b)
@@ -94,12 +101,12 @@ def parse_spec(spec: str, *, check_paths: bool = True) -> EncoderSpec:
         if key in options:
             raise _bad(spec, f"option {key!r} given twice")
         options[key] = value.strip() if key in ("k1", "b") else value
-    if kind in ("minilm", "minilm-int8"):
+    if kind in BUNDLED_KINDS:
         if arg:
             raise _bad(spec, f"{kind} takes no folder")
         _allow(spec, options, ())
         return EncoderSpec(kind)
-    if kind in ("st", "static"):
+    if kind in FOLDER_KINDS:
         if not arg.strip():
             raise _bad(spec, f"{kind}: needs a model folder, e.g. {kind}:models/my-model")
         path = Path(arg.strip()).expanduser().resolve()
@@ -140,6 +147,7 @@ def as_spec(spec: EncoderSpec | str, *, check_paths: bool = True) -> EncoderSpec
 def _no_folder(spec: str, kind: str, folder: str) -> UsageError:
     return UsageError(f"encoder {spec!r}: model folder {folder} not found; "
                       + ("create one with `trawl distill -o DIR`" if kind == "static"
+                         else "give a folder with model.onnx and tokenizer.json" if kind == "onnx"
                          else "give a local sentence-transformers folder"))
 
 

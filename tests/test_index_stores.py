@@ -1,0 +1,75 @@
+"""Indexes with int8 and binary vector stores: built, recorded in the manifest, searched,
+and refused when opened with other store settings."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+
+from trawl.errors import StaleIndexError, UsageError
+from trawl.index import build_index, open_index
+from trawl.stores import INT8_FILE, StoreSettings
+
+from .retrieval_fakes import FakeLoader, tiny_catalogue
+
+
+def build(tmp_path, kind: str, name: str | None = None, factor: int = 4, **kw):
+    loader = FakeLoader(dim=64)
+    info = build_index(tiny_catalogue(200), "minilm", tmp_path / (name or kind),
+                       cache_dir=tmp_path / "cache", quiet=True, loader=loader,
+                       store=StoreSettings(kind, rescore_factor=factor), **kw)
+    return info, loader
+
+
+def test_int8_store_is_recorded_and_a_quarter_of_fp32(tmp_path):
+    fp32, _ = build(tmp_path, "fp32")
+    int8, _ = build(tmp_path, "int8")
+    manifest = json.loads((tmp_path / "int8" / "manifest.json").read_text())
+    assert manifest["store"]["kind"] == "int8" and manifest["store"]["files"] == [INT8_FILE]
+    assert not (tmp_path / "int8" / "vectors.npy").exists()
+    assert int8.store == "int8" and fp32.store == "fp32"
+    assert int8.vector_bytes * 4 == fp32.vector_bytes == 200 * 64 * 4
+
+
+def test_stores_rank_like_fp32(tmp_path):
+    # Same fake vectors in every store: int8 keeps the top 10 nearly intact (bar: common
+    # practice, no source); binary whose re-scoring depth covers the whole catalogue
+    # (20 x 10 = 200 items) re-scores every item with the same int8 codes, so it must
+    # return exactly the int8 store's ranking.
+    queries = {f"q{i}": f"question number {i}" for i in range(20)}
+    runs = {}
+    for kind, factor in (("fp32", 4), ("int8", 4), ("binary", 20)):
+        _, loader = build(tmp_path, kind, factor=factor)
+        runs[kind] = open_index(tmp_path / kind, loader=loader).search(queries, 10, quiet=True)
+    overlap = np.mean([len({i for i, _ in runs["int8"].results[q]}
+                           & {i for i, _ in runs["fp32"].results[q]}) / 10 for q in queries])
+    assert overlap >= 0.95
+    for q in queries:
+        assert [i for i, _ in runs["binary"].results[q]] == [i for i, _ in runs["int8"].results[q]]
+        np.testing.assert_allclose([s for _, s in runs["binary"].results[q]],
+                                   [s for _, s in runs["int8"].results[q]], atol=1e-5)
+
+
+def test_opening_an_int8_index_with_fp32_settings_is_refused_with_the_rebuild(tmp_path):
+    _, loader = build(tmp_path, "int8")
+    with pytest.raises(StaleIndexError, match=r"keeps int8 vectors, not fp32; .* rebuild it: "
+                                              r"`trawl index .* -e minilm -o .* --store fp32`"):
+        open_index(tmp_path / "int8", loader=loader, store=StoreSettings("fp32"))
+    assert open_index(tmp_path / "int8", loader=loader, store=StoreSettings("int8")).ids
+
+
+def test_an_fp32_index_opened_with_binary_settings_is_refused(tmp_path):
+    _, loader = build(tmp_path, "fp32")
+    with pytest.raises(StaleIndexError, match="keeps fp32 vectors, not binary"):
+        open_index(tmp_path / "fp32", loader=loader, store=StoreSettings("binary"))
+
+
+def test_quantised_store_with_hnsw_or_bm25_is_refused_before_work(tmp_path):
+    with pytest.raises(UsageError, match="searched exhaustively; ann='hnsw'"):
+        build(tmp_path, "int8", ann="hnsw")
+    with pytest.raises(UsageError, match="bm25 keeps an inverted index"):
+        build_index(tiny_catalogue(), "bm25", tmp_path / "b", quiet=True,
+                    store=StoreSettings("binary"))
+    assert not (tmp_path / "int8").exists() and not (tmp_path / "b").exists()
