@@ -82,6 +82,11 @@ cache_dir_option = click.option(
 results_option = click.option(
     "--results", type=click.IntRange(min=1), default=100, show_default=True, metavar="N",
     help="Results kept per query (capped at the catalogue size).")
+partial_option = flag(
+    "--partial-overlap", help="Accept runs that answer under half of the judged queries, or "
+                              "whose items are mostly not in the catalogue (a deliberate "
+                              "partial overlap; they are still warned about). A run sharing "
+                              "no query with the judgments is refused either way.")
 names_option = click.option(
     "--name", "names", multiple=True, metavar="NAME",
     help="Name of each RUN in the tables, in the order the RUN files are given; repeat once "

@@ -7,8 +7,8 @@ import click
 
 from ..report import text
 from . import (cache_dir_option, catalogue_option, echo_err, emit_json, flag, in_file,
-               json_option, main, names_option, no_scrub_option, out_option, quiet_option,
-               reject, seed_option, show, template_option)
+               json_option, main, names_option, no_scrub_option, out_option, partial_option,
+               quiet_option, reject, seed_option, show, template_option)
 
 
 @main.command()
@@ -269,9 +269,11 @@ def review_import(sheets: tuple[str, ...], catalogue: str, output: str, base: st
                    "settle sooner than a small p-value does, and each resample re-scores "
                    "every run under both sets.")
 @seed_option
+@partial_option
 @json_option
 def agree(qrels_a: str, qrels_b: str, runs: tuple[str, ...], names: tuple[str, ...],
-          metric: str, resamples: int, seed: int, as_json: bool) -> None:
+          metric: str, resamples: int, seed: int, partial_overlap: bool,
+          as_json: bool) -> None:
     """Do two judgment sets (silver vs reviewed, silver vs human) rank systems alike?
 
     Scores each run under both sets, then gives Kendall's tau-b and Spearman's rho
@@ -284,9 +286,9 @@ def agree(qrels_a: str, qrels_b: str, runs: tuple[str, ...], names: tuple[str, .
       trawl agree silver.qrels qrels/quillfern-gold.qrels minilm.run bm25.run fused.run
     """
     from ..agreement import agree as agree_sets
-    from ..judgments import read_qrels
-    from ..scores import read_runs
+    from ..inputs import read_agreement_inputs
 
-    res = agree_sets(read_qrels(qrels_a), read_qrels(qrels_b), read_runs(runs, names),
+    a, b, loaded = read_agreement_inputs(qrels_a, qrels_b, runs, names, partial_overlap)
+    res = agree_sets(a, b, list(loaded),
                      metric=metric, resamples=resamples, seed=seed)
     show({**res.as_dict(), "qrels_a": qrels_a, "qrels_b": qrels_b}, as_json, text.agreement)

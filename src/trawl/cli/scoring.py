@@ -9,8 +9,8 @@ import click
 
 from ..report import text
 from . import (catalogue_option, in_file, json_option, main, metrics_option, names_option,
-               no_scrub_option, quiet_option, reject, resamples_option, seed_option, show,
-               silver_option)
+               no_scrub_option, partial_option, quiet_option, reject, resamples_option,
+               seed_option, show, silver_option)
 
 
 def csv_option(help: str) -> Callable:
@@ -22,12 +22,6 @@ def _metrics(names: tuple[str, ...]):
     from ..metrics import DEFAULT_METRICS, parse_metrics
 
     return parse_metrics(names or DEFAULT_METRICS)
-
-
-def _catalogue(path: str | None):
-    from ..catalogue import load_catalogue
-
-    return load_catalogue(path) if path is not None else None
 
 
 def _show(qrels: str, flagged: bool, report: Any, as_json: bool,
@@ -56,11 +50,12 @@ def _show(qrels: str, flagged: bool, report: Any, as_json: bool,
 @click.option("--per-query", "per_query_path", type=click.Path(dir_okay=False), default=None,
               metavar="PATH", help="Write the per-query scores to PATH (.csv or .json).")
 @csv_option("Write the table of means (one row per run, metric and type) to PATH as CSV.")
+@partial_option
 @silver_option
 @json_option
 def score(qrels: str, runs: tuple[str, ...], names: tuple[str, ...], catalogue: str | None,
           metrics: tuple[str, ...], resamples: int, seed: int, per_query_path: str | None,
-          csv_path: str | None, silver: bool, as_json: bool) -> None:
+          csv_path: str | None, partial_overlap: bool, silver: bool, as_json: bool) -> None:
     """Score TREC runs against qrels: means over all queries and, with --catalogue, per
     destination type.
 
@@ -73,17 +68,17 @@ def score(qrels: str, runs: tuple[str, ...], names: tuple[str, ...], catalogue: 
       trawl score qrels/quillfern-gold.qrels minilm.run bm25.run -c corpora/quillfern.jsonl
       trawl score silver.qrels minilm.run -m ndcg@10 -m hit@1 --per-query scores.csv
     """
-    from ..judgments import read_qrels
+    from ..inputs import read_scoring_inputs
     from ..pipeline.outputs import SCORE_COLUMNS, per_query_columns, write_rows
-    from ..scores import read_runs, score_runs
+    from ..scores import score_runs
     from ..tables import write_csv
 
     ms = _metrics(metrics)
     reject([(per_query_path is not None and not per_query_path.endswith((".csv", ".json")),
              f"--per-query {per_query_path}: name a .csv or .json file")])
-    cat = _catalogue(catalogue)
-    report = score_runs(read_qrels(qrels), read_runs(runs, names), ms, cat,
-                        resamples=resamples, seed=seed)
+    got = read_scoring_inputs(qrels, runs, names, catalogue, partial_overlap)
+    report = score_runs(got.qrels, list(got.runs), ms, got.catalogue, resamples=resamples,
+                        seed=seed)
     if per_query_path is not None:
         write_rows(per_query_path, report.per_query_rows(), per_query_columns(report.metrics))
     if csv_path is not None:
@@ -114,11 +109,12 @@ def score(qrels: str, runs: tuple[str, ...], names: tuple[str, ...], catalogue: 
 @click.option("--long", "long_table", is_flag=True,
               help="One line per comparison with interval, p-values and effect size.")
 @csv_option("Write every comparison row to PATH as CSV.")
+@partial_option
 @silver_option
 @json_option
 @quiet_option
 def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, names: tuple[str, ...],
-            catalogue: str | None,
+            catalogue: str | None, partial_overlap: bool,
             metrics: tuple[str, ...], resamples: int, seed: int, method: str, alpha: float,
             long_table: bool, csv_path: str | None, silver: bool, as_json: bool,
             quiet: bool) -> None:
@@ -133,20 +129,19 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, names: tupl
       trawl compare silver.qrels a.run b.run --baseline b.run -c items.jsonl --long
     """
     from ..compare import CSV_COLUMNS, compare_runs
-    from ..judgments import read_qrels
-    from ..scores import read_runs
+    from ..inputs import read_scoring_inputs
     from ..tables import write_csv
 
     reject([(long_table and as_json, "--long and --json conflict: --long shapes the table, "
                                      "--json replaces it; drop one"),
             (len(runs) < 2, "compare needs at least two RUN files (a baseline and one more)")])
     ms = _metrics(metrics)
-    cat = _catalogue(catalogue)
-    loaded = read_runs(runs, names)
+    got = read_scoring_inputs(qrels, runs, names, catalogue, partial_overlap)
+    loaded = list(got.runs)
     if baseline in runs:  # a file name: the run read from it
         baseline = loaded[runs.index(baseline)].name
-    comp = compare_runs(read_qrels(qrels), loaded, ms, baseline, resamples, seed, method,
-                        cat, alpha, quiet)
+    comp = compare_runs(got.qrels, loaded, ms, baseline, resamples, seed, method,
+                        got.catalogue, alpha, quiet)
     if csv_path is not None:
         write_csv(csv_path, [r.as_dict() for r in comp.rows], CSV_COLUMNS)
     _show(qrels, silver, comp, as_json, lambda d: text.comparison(d, long_table))
@@ -165,11 +160,12 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, names: tupl
               help="Queries TSV, to show the text of the worst queries.")
 @no_scrub_option
 @csv_option("Write the per-type table to PATH as CSV.")
+@partial_option
 @silver_option
 @json_option
 def misses(qrels: str, run: str, catalogue: str, cutoff: int, worst: int,
-           queries_path: str | None, no_scrub: bool, csv_path: str | None, silver: bool,
-           as_json: bool) -> None:
+           queries_path: str | None, no_scrub: bool, csv_path: str | None,
+           partial_overlap: bool, silver: bool, as_json: bool) -> None:
     """Where a run fails, by destination type of the wanted item: hit@1, hit@k, misses,
     median rank of the first relevant item, the types of what came first instead, and
     the worst queries with the item that won.
@@ -179,17 +175,17 @@ def misses(qrels: str, run: str, catalogue: str, cutoff: int, worst: int,
       trawl misses qrels/quillfern-gold.qrels minilm.run -c corpora/quillfern.jsonl
       trawl misses silver.qrels bm25.run -c items.jsonl --cutoff 5 --queries silver.queries.tsv
     """
-    from ..judgments import read_qrels
+    from ..inputs import read_scoring_inputs
     from ..misses import CSV_COLUMNS, miss_table
     from ..queries import read_queries
-    from ..runs import read_run
     from ..tables import write_csv
 
     reject([(no_scrub and queries_path is None,
              "--no-scrub applies to query text; it needs --queries")])
     texts = read_queries(queries_path) if queries_path is not None else None
-    rep = miss_table(read_qrels(qrels), read_run(run), _catalogue(catalogue), cutoff, worst,
-                     texts, scrub_queries=texts is not None and not no_scrub)
+    got = read_scoring_inputs(qrels, [run], (), catalogue, partial_overlap)
+    rep = miss_table(got.qrels, got.runs[0], got.catalogue, cutoff, worst, texts,
+                     scrub_queries=texts is not None and not no_scrub)
     if csv_path is not None:
         write_csv(csv_path, [r.as_dict() for r in rep.rows], CSV_COLUMNS)
     _show(qrels, silver, rep, as_json, text.misses)
