@@ -70,7 +70,7 @@ def test_warnings_name_missing_extra_and_unknown(loaded):
     rep = score_runs(qrels, runs, ["hit@1"], cat)
     assert rep.warnings == (
         "queries with no item graded >= 1: 1; they score 0 on every metric and count in "
-        "the means, as in trec_eval: q6",
+        "the means, as TREC evaluation counts them: q6",
         "run 'dense': queries without results, scored 0: 1 of 6: q5",
         "run 'dense': queries not in the qrels, ignored: 1: q9",
         "run 'dense': results naming items not in the catalogue: 1 (query/item): q9/ghost-item",

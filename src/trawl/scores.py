@@ -71,7 +71,7 @@ def qrels_warnings(qrels: Qrels) -> list[str]:
     if not empty:
         return []
     return [f"queries with no item graded >= 1: {len(empty)}; they score 0 on every metric "
-            f"and count in the means, as in trec_eval: {examples(empty)}"]
+            f"and count in the means, as TREC evaluation counts them: {examples(empty)}"]
 
 
 def check_run_names(runs: Sequence[Run]) -> None:

@@ -1,5 +1,6 @@
-"""LLM style: ask a chat-completions server the user runs (OpenAI-compatible
-``/v1/chat/completions``) for queries, prompted per destination type.
+"""LLM style: ask a chat-completions-compatible server the user runs
+(``/v1/chat/completions``) for queries, prompted per destination type. Item text from the
+catalogue is sent to that server.
 
 Plain ``urllib``, no client package. Connection failures, time-outs, HTTP 429 and 5xx are
 retried with exponential back-off; anything else, or running out of tries, raises
@@ -51,7 +52,9 @@ def keep_text(text: str) -> str:
 
 
 class PromptScrubber:
-    """The default ``redact`` hook: personal data never reaches the chat server.
+    """The default ``redact`` hook: e-mail addresses, phone numbers, long digit runs and
+    postcodes in item text and example queries are replaced by placeholders before they
+    are sent; the rest of the catalogue text goes to the chat server as written.
 
     ``counts`` tallies replacements once per distinct text, so example queries sent
     with every prompt are counted once.
