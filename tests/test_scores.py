@@ -207,8 +207,9 @@ def test_silver_judgments_are_marked_as_estimates(files, tmp_path):
     (tmp_path / "made.jsonl").write_text('{"id": "faq-pets", "type": "faq", "title": "Pets"}\n')
     assert json.loads(invoke(["misses", silver, files["dense"], "-c", files["catalogue"],
                               "--json"]).stdout)["silver"] is False
-    (tmp_path / "made.jsonl").write_text(  # a `trawl synth` provenance file beside it
-        '{"qid": "q1", "text": "x", "source": "faq-pets", "style": "keyword", "seed": 0}\n')
+    (tmp_path / "made.jsonl").write_text("".join(  # a `trawl synth` provenance file beside it
+        json.dumps({"qid": q, "text": "x", "source": "faq-pets", "style": "keyword", "seed": 0})
+        + "\n" for q in read_qrels(silver)))
     auto = invoke(["misses", silver, files["dense"], "-c", files["catalogue"], "--json"])
     assert json.loads(auto.stdout)["silver"] is True
     assert "holds silver" in invoke(["compare", silver, files["dense"], files["lexical"],
