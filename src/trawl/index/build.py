@@ -74,7 +74,8 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
         raise UsageError(f"ann={ann!r} applies to dense encoders; bm25 searches its own "
                          "inverted index exactly")
     if hnsw is not None and ann != "hnsw":
-        raise UsageError("HNSW parameters were given but the search is not hnsw; ask for ann='hnsw'")
+        raise UsageError("HNSW parameters were given but the search is not hnsw; "
+                         "ask for ann='hnsw'")
     if batch_size < 1:
         raise UsageError(f"batch size {batch_size} must be >= 1")
     out = Path(out_dir)
