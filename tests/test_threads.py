@@ -5,6 +5,7 @@ refused below 1)."""
 from __future__ import annotations
 
 import json
+import os
 import statistics
 
 import faiss
@@ -19,8 +20,8 @@ from .conftest import invoke
 from .retrieval_fakes import FakeLoader, tiny_catalogue
 from .test_search import CATALOGUE, QUERIES
 
-REFUSAL = ("error: threads=0 must be >= 1; give --threads 1 or more, or leave it out for "
-           "the libraries' defaults\n")
+REFUSAL = ("error: threads=0 must be >= 1; give --threads 1 or more (default 1: one compute "
+           "thread per query, as an app replica serves)\n")
 
 
 def _counts() -> tuple[int, int]:
@@ -154,12 +155,16 @@ def test_search_threads_is_recorded_and_restored(files):
     assert _counts() == before
 
 
-def test_search_without_threads_records_the_default(files):
+def test_search_without_threads_times_single_queries_with_one_thread(files):
     result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "--results", "5",
                      "-q"])
     assert result.exit_code == 0, result.stderr
-    assert json.loads((files / "r.run.latency.json").read_text())["threads"] == \
-        torch.get_num_threads()
+    latency = json.loads((files / "r.run.latency.json").read_text())
+    assert latency["threads"] == 1
+    assert latency["batch_threads"] == latency["cores"] == len(os.sched_getaffinity(0))
+    assert len(latency["load_before"]) == len(latency["load_after"]) == 3
+    assert latency["busy"] == (max(latency["load_before"][0], latency["load_after"][0])
+                               > latency["cores"])
 
 
 def test_search_threads_zero_is_a_one_line_error(files):

@@ -7,9 +7,11 @@ whole query set through ``Index.search``. The run returned is the batch run. A f
 system is timed by the same loop, serving each query by searching every part in turn
 and fusing, as a simple service would.
 
-Timing can run under a chosen compute thread count (``use_threads``): on a busy
-machine, compute threads that wait for a core inflate single-query latency, so time
-with the count the deployment will have.
+Per-query latency runs with one compute thread by default (``SINGLE_QUERY_THREADS``):
+an app replica on a shared machine serves one request per core, and on a busy machine
+extra threads wait for a core and inflate latency more than they help. Batch throughput
+uses every core, as an offline job would. The load average before and after timing is
+recorded, and ``busy`` says when the machine was busier than its cores (figures inflated).
 """
 
 from __future__ import annotations
@@ -27,6 +29,7 @@ import numpy as np
 
 from .errors import UsageError
 from .fusion import RRF_K, reciprocal_rank_fusion
+from .index.manifest import store_summary
 from .runs import Run, check_run_name
 
 if TYPE_CHECKING:
@@ -34,6 +37,7 @@ if TYPE_CHECKING:
 
 DEFAULT_WARMUP = 5
 PERCENTILE_METHOD = "linear"  # numpy's default interpolation, stated in the sidecar
+SINGLE_QUERY_THREADS = 1
 
 
 @dataclass(frozen=True)
@@ -57,15 +61,47 @@ class LatencyReport:
     items: int
     bytes_per_item: float
     cpu: str
-    threads: int
+    threads: int                    # compute threads while timing single queries
+    batch_threads: int = 0          # compute threads for the batch (every core)
+    cores: int = 0                  # CPUs this process may use
+    load_before: tuple[float, ...] = ()   # 1, 5, 15-minute load average before timing
+    load_after: tuple[float, ...] = ()
+    store: str = "fp32"             # how the index keeps vectors (stores.StoreSettings.label)
+    vector_bytes: int = 0           # bytes of the vectors (codes) searched
+
+    @property
+    def busy(self) -> bool:
+        return machine_busy(self.load_before, self.load_after, self.cores)
 
     def as_dict(self) -> dict[str, Any]:
         out = dict(self.__dict__)
-        out["method"] = (f"per-query: encode + search of one query at a time, "
-                         f"{self.warmup} warm-up queries excluded; percentiles "
-                         f"({PERCENTILE_METHOD}) over {self.queries_timed} queries; batch: "
-                         f"all queries through one search call")
+        out.update(load_before=list(self.load_before), load_after=list(self.load_after),
+                   busy=self.busy)
+        out["method"] = (f"per-query: encode + search of one query at a time with "
+                         f"{self.threads} compute thread(s), {self.warmup} warm-up queries "
+                         f"excluded; percentiles ({PERCENTILE_METHOD}) over "
+                         f"{self.queries_timed} queries; batch: all queries through one "
+                         f"search call with {self.batch_threads} thread(s)")
         return out
+
+
+def load_average() -> tuple[float, ...]:
+    """The 1, 5 and 15-minute load averages (empty where the system does not say)."""
+    try:
+        return tuple(round(x, 2) for x in os.getloadavg())
+    except OSError:
+        return ()
+
+
+def machine_busy(before: Sequence[float], after: Sequence[float], cores: int) -> bool:
+    """More runnable work than cores (1-minute load) before or after timing: latency
+    figures are then inflated by waiting for a core."""
+    loads = [x[0] for x in (before, after) if x]
+    return bool(cores) and any(load > cores for load in loads)
+
+
+def all_cores() -> int:
+    return len(os.sched_getaffinity(0))
 
 
 def time_queries(serve: Callable[[str, str], object], queries: Mapping[str, str],
@@ -94,10 +130,11 @@ def percentiles(per_query: Sequence[float]) -> dict[str, float]:
 
 def measure_search(index: Index, queries: Mapping[str, str], k: int = 100,
                    warmup: int = DEFAULT_WARMUP, quiet: bool = True,
-                   name: str | None = None, threads: int | None = None
+                   name: str | None = None, threads: int | None = SINGLE_QUERY_THREADS
                    ) -> tuple[Run, LatencyReport]:
-    """Batch run plus latency figures for ``queries`` against ``index``, timed under
-    ``threads`` compute threads (None: whatever is in force)."""
+    """Batch run plus latency figures for ``queries`` against ``index``: single queries
+    timed under ``threads`` compute threads (None: whatever is in force), the batch with
+    every core."""
     if warmup < 0:
         raise UsageError(f"warm-up count {warmup} must be >= 0")
     if name is not None:
@@ -105,11 +142,14 @@ def measure_search(index: Index, queries: Mapping[str, str], k: int = 100,
     index.check_k(k)
     if not queries:
         raise UsageError("no queries to time")
+    load_before = load_average()
     with use_threads(threads) as in_force:
         per_query = time_queries(lambda _qid, text: index.search_one(text, k), queries, warmup)
+    with use_threads(all_cores()) as batch_threads:
         start = time.perf_counter()
         run = index.search(queries, k, quiet=quiet, name=name)
         batch_seconds = time.perf_counter() - start
+    load_after = load_average()
     size = index.bytes
     report = LatencyReport(
         index=str(index.path), encoder=str(index.spec), ann=index.manifest["search"]["ann"],
@@ -117,7 +157,8 @@ def measure_search(index: Index, queries: Mapping[str, str], k: int = 100,
         batch_queries=len(queries), batch_seconds=_round(batch_seconds),
         batch_queries_per_s=_round(len(queries) / batch_seconds) if batch_seconds > 0 else 0.0,
         index_bytes=size, items=len(index), bytes_per_item=_round(size / len(index)),
-        cpu=cpu_model(), threads=in_force)
+        cpu=cpu_model(), threads=in_force, batch_threads=batch_threads, cores=all_cores(),
+        load_before=load_before, load_after=load_after, **store_summary(index.manifest))
     return run, report
 
 
@@ -175,15 +216,15 @@ def compute_threads() -> int:
 def check_threads(threads: int | None) -> None:
     """Refuse a thread count below 1 before any work starts."""
     if threads is not None and threads < 1:
-        raise UsageError(f"threads={threads} must be >= 1; give 1 or more, or "
-                         "leave it out for the libraries' defaults")
+        raise UsageError(f"threads={threads} must be >= 1; give 1 or more (default "
+                         f"{SINGLE_QUERY_THREADS}: one compute thread per query)")
 
 
 @contextmanager
 def use_threads(threads: int | None) -> Iterator[int]:
-    """Run the block with ``threads`` compute threads in torch (encoding) and faiss
-    (search), restoring both counts afterwards; yields the count in force. None
-    changes nothing, so the libraries' defaults apply."""
+    """Run the block with ``threads`` compute threads in torch (encoding), onnxruntime
+    (ONNX encoders) and faiss (search), restoring the counts afterwards; yields the count
+    in force. None changes nothing, so the libraries' defaults apply."""
     check_threads(threads)
     if threads is None:
         yield compute_threads()
@@ -191,7 +232,10 @@ def use_threads(threads: int | None) -> Iterator[int]:
     import faiss
     import torch
 
+    from .retrievers import onnx as onnx_runtime
+
     before = torch.get_num_threads(), faiss.omp_get_max_threads()
+    onnx_before = onnx_runtime.set_threads(threads)
     torch.set_num_threads(threads)
     faiss.omp_set_num_threads(threads)
     try:
@@ -199,6 +243,7 @@ def use_threads(threads: int | None) -> Iterator[int]:
     finally:
         torch.set_num_threads(before[0])
         faiss.omp_set_num_threads(before[1])
+        onnx_runtime.set_threads(onnx_before)
 
 
 def write_latency(run_path: str | Path, report: LatencyReport) -> Path:

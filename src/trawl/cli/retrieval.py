@@ -9,7 +9,8 @@ from . import (cache_dir_option, catalogue_option, echo_err, in_file, json_optio
                out_option, quiet_option, reject, results_option, show, template_option,
                threads_option)
 
-ENCODER_HELP = ("Encoder: minilm, minilm-int8, static:DIR, st:DIR[;query=PREFIX][;document=PREFIX] "
+ENCODER_HELP = ("Encoder: minilm, minilm-int8, minilm-onnx, minilm-onnx-int8, static:DIR, "
+                "st:DIR[;query=PREFIX][;document=PREFIX], onnx:DIR[;query=PREFIX][;document=PREFIX] "
                 "or bm25[;k1=X][;b=Y].")
 
 
@@ -25,6 +26,12 @@ ENCODER_HELP = ("Encoder: minilm, minilm-int8, static:DIR, st:DIR[;query=PREFIX]
               help="HNSW candidate list while building [200].")
 @click.option("--hnsw-ef-search", type=int, default=None,
               help="HNSW candidate list while searching [128].")
+@click.option("--store", type=click.Choice(["fp32", "int8", "binary"]), default="fp32",
+              show_default=True, help="How vectors are kept: as computed, 8 bits a number "
+                                      "(a quarter of the bytes), or 1 bit a number (1/32) with "
+                                      "the top candidates re-scored.")
+@click.option("--rescore", type=click.Choice(["int8", "fp32"]), default=None,
+              help="Vectors that re-score a binary store's candidates [int8].")
 @click.option("--batch-size", type=int, default=32, show_default=True,
               help="Texts per encoder batch.")
 @cache_dir_option
@@ -32,9 +39,9 @@ ENCODER_HELP = ("Encoder: minilm, minilm-int8, static:DIR, st:DIR[;query=PREFIX]
 @quiet_option
 @json_option
 def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int | None,
-                  hnsw_ef_construction: int | None, hnsw_ef_search: int | None, batch_size: int,
-                  cache_dir: str | None, template: str | None, quiet: bool,
-                  as_json: bool) -> None:
+                  hnsw_ef_construction: int | None, hnsw_ef_search: int | None, store: str,
+                  rescore: str | None, batch_size: int, cache_dir: str | None,
+                  template: str | None, quiet: bool, as_json: bool) -> None:
     """Build or incrementally update the search index of a catalogue with one encoder.
 
     Vectors are cached by encoder and text, so re-indexing embeds only new or edited
@@ -45,20 +52,30 @@ def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int 
       trawl index corpora/quillfern.jsonl -e minilm -o idx/minilm
       trawl index corpora/quillfern.jsonl -e bm25 -o idx/bm25
       trawl index items.jsonl -e minilm-int8 -o idx/int8 --ann hnsw
+      trawl index items.jsonl -e minilm-onnx -o idx/minilm-onnx
+      trawl index items.jsonl -e minilm -o idx/minilm-binary-vectors --store binary
     """
     from ..catalogue import load_catalogue
     from ..index import HnswParams, build_index
     from ..retrievers.spec import parse_spec
+    from ..stores import StoreSettings
 
     given = {"m": hnsw_m, "ef_construction": hnsw_ef_construction, "ef_search": hnsw_ef_search}
     reject([(v is not None and ann != "hnsw",
              f"--hnsw-{k.replace('_', '-')} needs --ann hnsw (got --ann {ann})")
-            for k, v in given.items()])
+            for k, v in given.items()]
+           + [(store != "fp32" and ann != "exact",
+               f"--store {store} and --ann {ann} conflict: a quantised store is searched "
+               "exhaustively; drop one"),
+              (rescore is not None and store != "binary",
+               f"--rescore needs --store binary (got --store {store})")])
     hnsw = HnswParams(**{k: v for k, v in given.items() if v is not None}) \
         if ann == "hnsw" else None
     encoder = parse_spec(spec)
+    settings = StoreSettings(store, rescore or "int8")
     info = build_index(load_catalogue(catalogue, template), encoder, output, ann=ann,
-                       cache_dir=cache_dir, batch_size=batch_size, quiet=quiet, hnsw=hnsw)
+                       cache_dir=cache_dir, batch_size=batch_size, quiet=quiet, hnsw=hnsw,
+                       store=settings)
     show(info.as_dict(), as_json, text.index_built)
 
 

@@ -116,10 +116,11 @@ def info_from_manifest(folder: Path, m: Mapping[str, Any]) -> IndexInfo:
         versions=dict(m["versions"]), created_at=build["created_at"],
         embedded=build["embedded"], reused=build["reused"], seconds=build["seconds"],
         items_per_s=build["items_per_s"], bytes=folder_bytes(folder),
-        **_store_info(m))
+        **store_summary(m))
 
 
-def _store_info(m: Mapping[str, Any]) -> dict[str, Any]:
+def store_summary(m: Mapping[str, Any]) -> dict[str, Any]:
+    """``store`` (how vectors are kept, "none" for bm25) and ``vector_bytes`` of a manifest."""
     if m["encoder"]["dim"] == 0:
         return {"store": "none", "vector_bytes": 0}
     store = m.get("store") or {}

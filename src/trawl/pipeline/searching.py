@@ -70,7 +70,7 @@ def _search_one(s: System, indexes: Mapping[str, Any], queries: Mapping[str, str
     """One system's run and latency figures; a fusion uses its parts' runs and figures."""
     if s.spec is not None:
         run, report = measure_search(indexes[s.name], queries, depth, warmup=DEFAULT_WARMUP,
-                                     quiet=quiet, name=s.name)
+                                     quiet=quiet, name=s.name, threads=in_force)
         return run, report.as_dict()
     run = reciprocal_rank_fusion([runs[p] for p in s.parts], RRF_K, depth=depth, name=s.name)
     lat = measure_fused([indexes[p] for p in s.parts], s.parts, queries, depth, s.name)

@@ -332,7 +332,8 @@ def synth(d: Mapping[str, Any], related_grade: int) -> tuple[str, list[str]]:
 def index_built(d: Mapping[str, Any]) -> str:
     """One line on an index build (``IndexInfo.as_dict()``)."""
     if d["dim"]:
-        done = f"{d['dim']} dims, {d['ann']}): {d['embedded']} embedded, {d['reused']} from cache"
+        done = (f"{d['dim']} dims, {d['ann']}, {d.get('store', 'fp32')} vectors): "
+                f"{d['embedded']} embedded, {d['reused']} from cache")
     else:
         done = "inverted index)"
     return (f"indexed {d['items']} items with {d['spec']} ({done}, {d['items_per_s']:.1f} "
