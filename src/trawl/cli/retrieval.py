@@ -14,6 +14,31 @@ ENCODER_HELP = ("Encoder: minilm, minilm-int8, minilm-onnx, minilm-onnx-int8, st
                 "or bm25[;k1=X][;b=Y].")
 
 
+def engine_options(command):
+    """--engine, --address and --workers: where an index build embeds (index and eval)."""
+    for option in reversed([
+            click.option("--engine", type=click.Choice(["local", "ray"]), default="local",
+                         show_default=True,
+                         help="Embed in this process, or on Ray workers (one model load per "
+                              "worker; pip install 'trawl[ray]')."),
+            click.option("--address", default=None, metavar="ADDR",
+                         help="Ray cluster to join, e.g. ray://head:10001 or auto (default: "
+                              "start a local Ray runtime)."),
+            click.option("--workers", type=click.IntRange(min=1), default=None,
+                         help="Ray workers embedding at once [the cluster's CPUs]."),
+    ]):
+        command = option(command)
+    return command
+
+
+def engine_conflicts(engine: str, address: str | None,
+                     workers: int | None) -> list[tuple[bool, str]]:
+    return [(address is not None and engine != "ray",
+             f"--address needs --engine ray (got --engine {engine})"),
+            (workers is not None and engine != "ray",
+             f"--workers needs --engine ray (got --engine {engine})")]
+
+
 @main.command("index")
 @in_file("catalogue")
 @click.option("-e", "--encoder", "spec", required=True, metavar="SPEC", help=ENCODER_HELP)
@@ -34,14 +59,16 @@ ENCODER_HELP = ("Encoder: minilm, minilm-int8, minilm-onnx, minilm-onnx-int8, st
               help="Vectors that re-score a binary store's candidates [int8].")
 @click.option("--batch-size", type=int, default=32, show_default=True,
               help="Texts per encoder batch.")
+@engine_options
 @cache_dir_option
 @template_option
 @quiet_option
 @json_option
 def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int | None,
                   hnsw_ef_construction: int | None, hnsw_ef_search: int | None, store: str,
-                  rescore: str | None, batch_size: int, cache_dir: str | None,
-                  template: str | None, quiet: bool, as_json: bool) -> None:
+                  rescore: str | None, batch_size: int, engine: str, address: str | None,
+                  workers: int | None, cache_dir: str | None, template: str | None,
+                  quiet: bool, as_json: bool) -> None:
     """Build or incrementally update the search index of a catalogue with one encoder.
 
     Vectors are cached by encoder and text, so re-indexing embeds only new or edited
@@ -54,8 +81,10 @@ def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int 
       trawl index items.jsonl -e minilm-int8 -o idx/int8 --ann hnsw
       trawl index items.jsonl -e minilm-onnx -o idx/minilm-onnx
       trawl index items.jsonl -e minilm -o idx/minilm-binary-vectors --store binary
+      trawl index items.jsonl -e minilm -o idx/minilm --engine ray --workers 8
     """
     from ..catalogue import load_catalogue
+    from ..engines import make_engine
     from ..index import HnswParams, build_index
     from ..retrievers.spec import parse_spec
     from ..stores import StoreSettings
@@ -68,14 +97,15 @@ def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int 
                f"--store {store} and --ann {ann} conflict: a quantised store is searched "
                "exhaustively; drop one"),
               (rescore is not None and store != "binary",
-               f"--rescore needs --store binary (got --store {store})")])
+               f"--rescore needs --store binary (got --store {store})")]
+           + engine_conflicts(engine, address, workers))
     hnsw = HnswParams(**{k: v for k, v in given.items() if v is not None}) \
         if ann == "hnsw" else None
     encoder = parse_spec(spec)
     settings = StoreSettings(store, rescore or "int8")
     info = build_index(load_catalogue(catalogue, template), encoder, output, ann=ann,
                        cache_dir=cache_dir, batch_size=batch_size, quiet=quiet, hnsw=hnsw,
-                       store=settings)
+                       store=settings, engine=make_engine(engine, address, workers))
     show(info.as_dict(), as_json, text.index_built)
 
 
