@@ -54,10 +54,26 @@ def test_rows_by_hand(comparison):
     assert all_.effect == pytest.approx((1 / 3) / np.sqrt(2 / 3))
 
 
-def test_holm_runs_over_every_row_shown(comparison):
-    p = [r.p_randomisation for r in comparison.rows]
-    assert [r.p_corrected for r in comparison.rows] == pytest.approx(list(holm(p)))
-    assert comparison.groups == {None: 6, "article": 1, "faq": 1, "form": 1, "screen": 3}
+def test_holm_runs_within_each_family(files):
+    # Three runs against the baseline on two metrics: the headline family is the first
+    # metric over all queries (2 rows, corrected together); every other (metric, type)
+    # family is exploratory and corrected only within itself.
+    qrels = read_qrels(files["qrels"])
+    dense, lexical = read_run(files["dense"]), read_run(files["lexical"])
+    twin = make_run("twin", {q: list(reversed(p)) for q, p in lexical.results.items()})
+    comp = compare_runs(qrels, [dense, lexical, twin], ["hit@1", "mrr@10"], resamples=200,
+                        catalogue=load_catalogue(files["catalogue"]))
+    families: dict = {}
+    for r in comp.rows:
+        families.setdefault((r.metric, r.type), []).append(r)
+    assert len(families) == 2 * 5
+    for (metric, group), rows in families.items():
+        assert len(rows) == 2
+        assert [r.p_corrected for r in rows] == pytest.approx(
+            list(holm([r.p_randomisation for r in rows])))
+        want = "headline" if (metric, group) == ("hit@1", None) else "exploratory"
+        assert {r.family for r in rows} == {want}
+    assert comp.groups == {None: 6, "article": 1, "faq": 1, "form": 1, "screen": 3}
 
 
 def test_few_queries_per_type_are_warned_about(comparison):
@@ -101,7 +117,9 @@ def test_as_dict_rows_carry_every_field(comparison):
     d = comparison.as_dict()
     json.dumps(d)
     assert d["baseline"] == "dense" and d["interval"] == "percentile" and d["alpha"] == 0.05
-    assert d["correction"] == "holm over the p_randomisation of every row"
+    assert d["correction"].startswith("holm over the p_randomisation within each family: "
+                                      "the headline family is every run vs the baseline "
+                                      "on hit@1 over all queries")
     assert d["groups"][0] == {"type": None, "n": 6}
     assert set(d["rows"][0]) == set(CSV_COLUMNS)
     assert (d["rows"][1]["type"], d["rows"][1]["n"], d["rows"][1]["low"]) == ("article", 1, None)
@@ -131,15 +149,24 @@ def test_compare_command_shows_significance_at_a_glance(clear_difference):
     res = invoke(["compare", d / "c.qrels", d / "worse.run", d / "better.run", "-m", "hit@1",
                   "-m", "mrr@10", "-q"])
     assert res.exit_code == 0, res.output
-    lines = res.stdout.splitlines()
+    decision, table = res.stdout.split("\n\n", 1)
+    # the decision first, on the first metric asked for; no latency files beside the runs
+    assert decision.splitlines()[0].startswith(
+        f"decision (hit@1 on {d / 'c.qrels'}, margin 0.01): ship better: best hit@1 0.833, "
+        "ahead of worse (difference -0.500, 95% interval ")
+    assert decision.splitlines()[-1] == (
+        "  note: no latency or index size for worse, better (no RUN.latency.json beside the "
+        "run): the decision weighs quality only for them")
+    lines = table.splitlines()
     assert lines[0] == ("baseline worse; 60 queries; paired bootstrap (percentile, 10000 "
                         "resamples, seed 0) and sign-flip randomisation test")
     assert lines[3].split() == ["all", "60", "worse", "0.333", "0.667"]
     assert lines[4].split() == ["better", "0.833", "+0.500", "▲", "0.917", "+0.250", "▲"]
     assert ("marks: ▲ better than the baseline, ▼ worse, · no clear difference (corrected p "
             "at or above alpha)") in lines
-    assert ("corrected p: sign-flip randomisation test, Holm-corrected over all 2 "
-            "comparisons shown; alpha 0.05") in lines
+    assert ("corrected p: sign-flip randomisation test, Holm-corrected within families; "
+            "headline family: 1 comparison (hit@1, all queries); other metrics and types "
+            "are exploratory, each corrected only within itself; alpha 0.05") in lines
 
 
 def test_compare_command_long_json_and_csv(clear_difference, tmp_path):
@@ -148,7 +175,7 @@ def test_compare_command_long_json_and_csv(clear_difference, tmp_path):
             "--resamples", "2000", "--seed", "3"]
     long = invoke(args + ["--long"])
     assert long.exit_code == 0
-    row = long.stdout.splitlines()[3].split()
+    row = long.stdout.split("\n\n", 1)[1].splitlines()[3].split()
     assert row[:5] == ["all", "60", "better", "hit@1", "+0.500"] and row[-1] == "▲"
     out = tmp_path / "rows.csv"
     res = invoke(args + ["--json", "--csv", out])

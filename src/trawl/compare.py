@@ -4,7 +4,13 @@ For every run other than the baseline, every metric and every group of queries (
 queries, then each destination type when a catalogue is given) one row holds the mean
 difference (run minus baseline), its paired bootstrap interval, two-sided p-values
 from the paired bootstrap and from a sign-flip randomisation test, the randomisation
-p-value after Holm's correction over every row of the comparison, and an effect size.
+p-value after Holm's correction within its family, and an effect size.
+
+Correction families: the headline family is every run against the baseline on the first
+metric over all queries, the question a decision rests on; it is corrected on its own,
+so adding metrics or destination types does not water it down. Every other (metric,
+group) is an exploratory family of its own (the runs against the baseline on that metric
+and group), corrected within itself only; its rows say ``family="exploratory"``.
 
 The corrected p-value (and so the significance mark) comes from the randomisation
 test because it stays valid with few queries: it is exact when every sign pattern can
@@ -32,6 +38,7 @@ from .stats import (Estimate, bootstrap_many, effect_sizes, few_queries_note, ho
                     randomisation_many, too_few)
 
 FEW_QUERIES = 20  # common practice, no source: below this a per-type test says little
+HEADLINE, EXPLORATORY = "headline", "exploratory"
 nan = float("nan")
 
 
@@ -54,6 +61,7 @@ class ComparisonRow:
     p_corrected: float
     effect: float
     note: str | None = None  # stats.TOO_FEW when the interval and p_bootstrap are not given
+    family: str = "headline"  # the Holm family: HEADLINE or EXPLORATORY (module doc)
 
     def as_dict(self) -> dict[str, Any]:
         return {k: (None if isinstance(v, float) and np.isnan(v) else v)
@@ -88,7 +96,7 @@ class Comparison:
             "seed": self.seed,
             "interval": self.method,
             "alpha": self.alpha,
-            "correction": "holm over the p_randomisation of every row",
+            "correction": correction_rule(self.metrics[0]),
             "rows": [r.as_dict() for r in self.rows],
             "warnings": list(self.warnings),
         }
@@ -160,12 +168,33 @@ def compare_scores(report: ScoreReport, resamples: int = 10000, seed: int = 0,
                                 "say little" + (f"; {few_queries_note(len(rows))}"
                                                 if note else ""))
             bar.update()
-    corrected = holm([p["p_randomisation"] for p in pending])
-    rows_out = tuple(ComparisonRow(p_corrected=float(c), **p) for p, c in zip(pending, corrected))
+    rows_out = tuple(_corrected(pending, metrics[0]))
     return Comparison(runs[0], runs, metrics, len(report.qids),
                       {g: len(r) for g, r in groups.items()}, rows_out, resamples, seed,
                       method, alpha, tuple(warnings))
 
 
+def correction_rule(headline: str) -> str:
+    """The correction families in words (for JSON and captions)."""
+    return (f"holm over the p_randomisation within each family: the headline family is "
+            f"every run vs the baseline on {headline} over all queries; each other metric "
+            f"and destination type is an exploratory family corrected only within itself")
+
+
+def _corrected(pending: list[dict[str, Any]], headline: str) -> list[ComparisonRow]:
+    """The rows with Holm's correction applied within each (metric, group) family."""
+    families: dict[tuple[str, str | None], list[int]] = {}
+    for i, p in enumerate(pending):
+        families.setdefault((p["metric"], p["type"]), []).append(i)
+    corrected = [nan] * len(pending)
+    for rows in families.values():
+        for i, c in zip(rows, holm([pending[i]["p_randomisation"] for i in rows])):
+            corrected[i] = float(c)
+    return [ComparisonRow(p_corrected=c, family=HEADLINE if (p["metric"], p["type"]) ==
+                          (headline, None) else EXPLORATORY, **p)
+            for p, c in zip(pending, corrected)]
+
+
 CSV_COLUMNS = ("run", "baseline", "metric", "type", "n", "run_mean", "baseline_mean", "diff",
-               "low", "high", "p_bootstrap", "p_randomisation", "p_corrected", "effect", "note")
+               "low", "high", "p_bootstrap", "p_randomisation", "p_corrected", "effect", "note",
+               "family")

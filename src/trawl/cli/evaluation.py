@@ -8,6 +8,7 @@ from ..report import text
 from . import (cache_dir_option, emit_json, in_file, json_option, main, metrics_option,
                no_scrub_option, out_option, quiet_option, resamples_option, results_option,
                retime_option, seed_option, step, template_option, threads_option)
+from .limits import limits_from, limits_options
 
 resamples = resamples_option(10000, 1, "Bootstrap and randomisation resamples. Default "
                                        "10,000, as in compare: p-values near the "
@@ -52,6 +53,7 @@ def _finish(result, as_json: bool) -> None:
 @no_scrub_option
 @retime_option
 @threads_option
+@limits_options
 @quiet_option
 @json_option
 def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, ...],
@@ -59,17 +61,19 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
                  metrics: tuple[str, ...], resamples: int, seed: int, judged_by: str,
                  ann: str, cache_dir: str | None, template: str | None, title: str | None,
                  no_scrub: bool, retime: bool, threads: int | None, quiet: bool,
-                 as_json: bool) -> None:
+                 as_json: bool, **limits: float | str | None) -> None:
     """Index, search, score, compare and analyse misses for every encoder in one go,
     and write report.html.
 
     Indexes are kept in OUTPUT/indexes and reused while the catalogue and encoder are
     unchanged; vectors come from the embedding cache; a system whose index, queries,
     depth and threads are unchanged keeps its run and latency figures; so reruns finish
-    fast. Prints quality against latency with significance marks and the headline of the
-    miss table. Under silver judgments every figure is an estimate, and the output says
-    so. Latency is timed with --threads compute threads when given (the report shows the
-    count); time with what a deployed replica will have.
+    fast. Prints the decision first (which system to ship within --max-latency-ms and
+    --max-index-mb, accepting a loss of --margin on the --headline metric, and how many
+    judged queries would settle it), then quality against latency with significance
+    marks and the headline of the miss table. Under silver judgments every figure is an
+    estimate, and the output says so. Latency is timed with --threads compute threads
+    when given (the report shows the count); time with what a deployed replica will have.
 
     \b
     Example:
@@ -88,7 +92,7 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
                       metrics=metrics or DEFAULT_METRICS, resamples=resamples, seed=seed,
                       ann=ann, cache_dir=cache_dir, template=template, title=title,
                       scrub_queries=not no_scrub, retime=retime, threads=threads, quiet=quiet,
-                      notify=step(quiet or as_json))
+                      notify=step(quiet or as_json), limits=limits_from(limits))
     _finish(result, as_json)
     if not as_json:
         click.echo(result.bundle["setup"]["notes"]["privacy"])
@@ -108,11 +112,12 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
 @seed_option
 @retime_option
 @threads_option
+@limits_options
 @quiet_option
 @json_option
 def demo(output: str, encoders: tuple[str, ...], fuse: tuple[str, ...], sample: int | None,
          resamples: int, seed: int, retime: bool, threads: int | None, quiet: bool,
-         as_json: bool) -> None:
+         as_json: bool, **limits: float | str | None) -> None:
     """The whole job on the bundled transit catalogue: check it, distil the static
     encoder, synthesise silver queries, evaluate every encoder and the hybrid against the
     silver set and the hand-judged gold set, measure how alike the two sets rank the
@@ -130,5 +135,6 @@ def demo(output: str, encoders: tuple[str, ...], fuse: tuple[str, ...], sample: 
 
     result = run_demo(output, encoders=encoders or DEMO_ENCODERS, fuse=fuse or None,
                       sample=sample, resamples=resamples, seed=seed, retime=retime,
-                      threads=threads, quiet=quiet, notify=step(quiet or as_json))
+                      threads=threads, quiet=quiet, notify=step(quiet or as_json),
+                      limits=limits_from(limits))
     _finish(result, as_json)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable
+from types import SimpleNamespace
 from typing import Any
 
 import click
@@ -11,6 +12,7 @@ from ..report import text
 from . import (catalogue_option, in_file, json_option, main, metrics_option, names_option,
                no_scrub_option, partial_option, quiet_option, reject, resamples_option,
                seed_option, show, silver_option)
+from .limits import limits_from, limits_options
 
 
 def csv_option(help: str) -> Callable:
@@ -111,17 +113,21 @@ def score(qrels: str, runs: tuple[str, ...], names: tuple[str, ...], catalogue: 
 @csv_option("Write every comparison row to PATH as CSV.")
 @partial_option
 @silver_option
+@limits_options
 @json_option
 @quiet_option
 def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, names: tuple[str, ...],
             catalogue: str | None, partial_overlap: bool,
             metrics: tuple[str, ...], resamples: int, seed: int, method: str, alpha: float,
             long_table: bool, csv_path: str | None, silver: bool, as_json: bool,
-            quiet: bool) -> None:
+            quiet: bool, **limits: float | str | None) -> None:
     """Compare runs with a baseline on the same queries: mean difference per metric,
     paired bootstrap interval, p-values from the paired bootstrap and a sign-flip
     randomisation test, Holm's correction over every comparison shown, and an effect
-    size (mean difference over the spread of per-query differences).
+    size (mean difference over the spread of per-query differences). First comes the
+    decision: which run's system to ship within --max-latency-ms and --max-index-mb,
+    accepting a loss of --margin on the --headline metric, with latency and index size
+    from each RUN.latency.json (trawl search writes it) when present.
 
     \b
     Example:
@@ -129,6 +135,8 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, names: tupl
       trawl compare silver.qrels a.run b.run --baseline b.run -c items.jsonl --long
     """
     from ..compare import CSV_COLUMNS, compare_runs
+    from ..decision import decide_runs
+    from ..silver import is_silver
     from ..inputs import read_scoring_inputs
     from ..tables import write_csv
 
@@ -142,9 +150,14 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, names: tupl
         baseline = loaded[runs.index(baseline)].name
     comp = compare_runs(got.qrels, loaded, ms, baseline, resamples, seed, method,
                         got.catalogue, alpha, quiet)
+    verdict = decide_runs(got.qrels, loaded, runs, limits_from(limits),
+                          silver=silver or is_silver(qrels), resamples=resamples, seed=seed,
+                          alpha=alpha, judgment_set=qrels, first_metric=ms[0].name)
     if csv_path is not None:
         write_csv(csv_path, [r.as_dict() for r in comp.rows], CSV_COLUMNS)
-    _show(qrels, silver, comp, as_json, lambda d: text.comparison(d, long_table))
+    both = SimpleNamespace(as_dict=lambda: {**comp.as_dict(), "decision": verdict.as_dict()})
+    _show(qrels, silver, both, as_json, lambda d: text.decision(d["decision"], qrels=qrels)
+          + "\n\n" + text.comparison(d, long_table))
 
 
 @main.command()

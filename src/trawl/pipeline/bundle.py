@@ -16,6 +16,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
+from ..decision import Decision
 from ..errors import InputError
 
 FORMAT = "trawl-results/1"
@@ -114,9 +115,13 @@ class ComparisonRow:
     high: float | None
     p_bootstrap: float | None
     p_randomisation: float | None
-    p_corrected: float | None = _doc("Holm-corrected p-value (see ``corrected``)")
+    p_corrected: float | None = _doc("Holm-corrected p-value within its family (see "
+                                     "``family`` and ``corrected``)")
     effect: float | None
     note: str | None = _doc("why the interval and bootstrap p-value are missing")
+    family: str = _doc("the Holm family of p_corrected: 'headline' (every run vs the "
+                       "baseline on the first metric over all queries) or 'exploratory' "
+                       "(one metric on one group, corrected only within itself)")
 
 
 @dataclass(frozen=True)
@@ -264,6 +269,9 @@ class Results:
     systems: tuple[SystemInfo, ...]
     evaluations: tuple[Evaluation, ...] = _doc("one per judgment set")
     agreement: AgreementInfo | None = _doc("None unless two judgment sets were compared")
+    decision: Decision | None = _doc(
+        "which system to ship under the limits asked for, with every figure it rests on; "
+        "absent with a single system", omit_none=True, default=None)
 
     def as_dict(self) -> dict[str, Any]:
         """The JSON-ready bundle, keys in field order."""

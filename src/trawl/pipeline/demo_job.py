@@ -6,6 +6,7 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from ..catalogue import check_catalogue, load_catalogue
+from ..decision import Limits
 from ..errors import TrawlError
 from ..latency import check_threads
 from .evaluation import DEFAULT_RESAMPLES, EvalResult, evaluate
@@ -38,7 +39,7 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
          resamples: int = DEFAULT_RESAMPLES, seed: int = 0,
          cache_dir: str | Path | None = None, retime: bool = False,
          threads: int | None = None, quiet: bool = False,
-         notify: Notify | None = None) -> EvalResult:
+         notify: Notify | None = None, limits: Limits | None = None) -> EvalResult:
     """The whole job on the bundled transit catalogue, from an empty folder.
 
     Checks the catalogue, distils the static encoder (kept for reruns), synthesises
@@ -46,7 +47,7 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
     set, and measures how alike the two sets rank the systems. ``static`` among the
     encoders means the distilled model; ``sample`` limits the items queries are
     synthesised from (for quick runs). The embedding cache defaults to ``OUT/cache``.
-    ``threads`` is passed to ``evaluate``.
+    ``threads`` and ``limits`` are passed to ``evaluate``.
     """
     from ..distill import distill_static
     from ..silver import write_silver
@@ -90,4 +91,4 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
                     cache_dir=cache,
                     agreement=("silver", "gold") if len(specs) + len(fuse) >= 2 else None,
                     title="Quillfern Regional Transit: rider app search", retime=retime,
-                    threads=threads, quiet=quiet, notify=notify)
+                    threads=threads, quiet=quiet, notify=notify, limits=limits)

@@ -12,6 +12,7 @@ from typing import Any
 
 from .. import __version__
 from ..catalogue import Catalogue, load_catalogue
+from ..decision import Limits
 from ..errors import UsageError
 from ..files import write_text_atomic
 from ..latency import check_threads
@@ -22,6 +23,7 @@ from ..retrievers.loading import default_loader
 from .assembly import (agreement_entry, evaluation_entry, scrub_note, setup_notes,
                        system_entry, versions)
 from .bundle import FORMAT, AgreementInfo, CatalogueInfo, Evaluation, Results, Setup
+from .deciding import checked_limits, evaluation_decision
 from .outputs import write_json, write_tables
 from .searching import Notify, Searched, merge_runs, search_set
 from .sets import JudgmentSet, LoadedSet, load_set
@@ -64,6 +66,7 @@ class _Plan:
     quiet: bool
     scrub: bool
     say: Notify
+    limits: Limits = Limits()
 
     @property
     def names(self) -> list[str]:
@@ -78,7 +81,8 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
              cache_dir: str | Path | None = None, template: str | None = None,
              agreement: tuple[str, str] | None = None, title: str | None = None,
              scrub_queries: bool = False, retime: bool = False, threads: int | None = None,
-             quiet: bool = False, notify: Notify | None = None) -> EvalResult:
+             quiet: bool = False, notify: Notify | None = None,
+             limits: Limits | None = None) -> EvalResult:
     """Index, search (timed), fuse, score, compare, tabulate misses and write the report.
 
     ``encoders`` are specs (``NAME=SPEC`` to name one); ``fuse`` entries join system
@@ -89,7 +93,8 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
     timed with (None: the libraries' defaults); time with what the deployment will have.
     A system whose index, queries, depth and thread count are unchanged since an earlier
     evaluation into the same folder keeps that run and its latency figures (the report
-    says so); ``retime`` searches and times everything again.
+    says so); ``retime`` searches and times everything again. ``limits`` (latency, index
+    size, accepted quality loss, headline metric) shape the decision (``decision.decide``).
     """
     started = time.perf_counter()
     # everything that can be wrong with the request is checked before any work
@@ -101,7 +106,8 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
     cat = catalogue if isinstance(catalogue, Catalogue) else load_catalogue(catalogue, template)
     loaded = [load_set(js) for js in sets]
     plan = _Plan(systems, baseline, metric_names, min(k, len(cat)), resamples, seed, alpha,
-                 retime, threads, quiet, scrub_queries, notify or (lambda _msg: None))
+                 retime, threads, quiet, scrub_queries, notify or (lambda _msg: None),
+                 checked_limits(limits, metric_names[0]))
     indexes = _index_systems(plan, cat, out, ann,
                              Path(cache_dir) if cache_dir is not None else None)
     scrubbed = dict.fromkeys(PRIVACY_KINDS, 0)
@@ -120,7 +126,9 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
               tuple(metric_names), metric_names[0], plan.depth, resamples, seed, alpha, notes,
               versions(), scrubbed if scrub_queries else None),
         tuple(system_entry(s, indexes, cat) for s in systems),
-        tuple(_judged_by(ev, agreed) for ev in evaluations), agreed)
+        tuple(_judged_by(ev, agreed) for ev in evaluations), agreed,
+        evaluation_decision(systems, loaded, searched, indexes, plan.limits, resamples, seed,
+                            alpha))
     bundle = results.as_dict()
     write_json(out / "results.json", bundle)
     from ..report.html import render_html

@@ -123,11 +123,22 @@ def _compact_comparison(d: Mapping[str, Any]) -> list[str]:
             "intervals, both p-values, effect sizes: --long, --json, --csv"]
 
 
+def _families_line(rows: Sequence[Mapping[str, Any]], headline: str, alpha: float) -> str:
+    """What the corrected p-values were corrected over, with the family sizes."""
+    from ..scores import count
+
+    head = sum(r.get("family") == "headline" for r in rows)
+    line = (f"corrected p: sign-flip randomisation test, Holm-corrected within families; "
+            f"headline family: {count(head, 'comparison')} ({headline}, all queries)")
+    if head < len(rows):
+        line += ("; other metrics and types are exploratory, each corrected only within "
+                 "itself")
+    return line + f"; alpha {alpha:g}"
+
+
 def comparison(d: Mapping[str, Any], long: bool = False) -> str:
     """A compact table (mean, difference and a mark per metric) or, with ``long``, one
     line per comparison with interval, p-values and effect size (``Comparison.as_dict()``)."""
-    from ..scores import count
-
     rows, alpha = d["rows"], d["alpha"]
     out = [f"baseline {d['baseline']}; {d['queries']} queries; paired bootstrap "
            f"({d['interval']}, {d['resamples']} resamples, seed {d['seed']}) and sign-flip "
@@ -144,8 +155,7 @@ def comparison(d: Mapping[str, Any], long: bool = False) -> str:
     else:
         out += _compact_comparison(d)
     out.append(f"marks: {fmt.MARK_LEGEND}")
-    out.append(f"corrected p: sign-flip randomisation test, Holm-corrected over all "
-               f"{count(len(rows), 'comparison')} shown; alpha {alpha:g}")
+    out.append(_families_line(rows, d["metrics"][0], alpha))
     if not long and any(r["type"] is not None for r in rows):
         out.append(f"per type: {d['type_rule']}")
     return "\n".join(out + warning_lines(d["warnings"]))
@@ -397,10 +407,52 @@ def _evaluation_lines(ev: Mapping[str, Any], bundle: Mapping[str, Any]) -> list[
     return lines + [""]
 
 
+def decision(d: Mapping[str, Any], qrels: str = "QRELS", queries: str = "QUERIES",
+             catalogue: str = "CATALOGUE") -> str:
+    """The decision block (at most 6 lines): the verdict, its evidence, the frontier, the
+    limits, and on silver judgments the caution and the review sample that would confirm
+    it (``qrels``, ``queries`` and ``catalogue`` fill in the command)."""
+    where = f" on {d['judgment_set']}" if d.get("judgment_set") else ""
+    lines = [f"decision ({d['metric']}{where}, margin {d['margin']:g}): {d['headline']}"]
+    if d.get("evidence"):
+        lines.append(f"  evidence: {d['evidence']}")
+    cands = d["candidates"]
+    on = [c["name"] for c in cands if c["dominated_by"] is None]
+    off = [f"{c['name']} (by {c['dominated_by']})" for c in cands if c["dominated_by"]]
+    lines.append(f"  frontier: {', '.join(on)}"
+                 + (f"; dominated: {', '.join(off)}" if off else ""))
+    asked = [f"p95 <= {d['max_latency_ms']:g} ms" if d.get("max_latency_ms") else "",
+             f"index <= {d['max_index_mb']:g} MB" if d.get("max_index_mb") else ""]
+    out = [f"{c['name']} ({', '.join(c['excluded_because'])})" for c in cands if not c["fits"]]
+    if any(asked):
+        lines.append(f"  limits: {', '.join(a for a in asked if a)}"
+                     + (f"; excluded: {'; '.join(out)}" if out else "; every system fits"))
+    if d.get("caution"):
+        lines.append(f"  {d['caution']}:")
+        lines.append(f"    trawl review export {qrels} {queries} -c {catalogue} "
+                     f"-o review.csv --sample {d['review_sample']}")
+    lines += [f"  note: {note}" for note in d.get("notes", ())]
+    return "\n".join(lines)
+
+
+def _review_files(bundle: Mapping[str, Any]) -> dict[str, str]:
+    """The deciding set's files, for the review command the decision proposes."""
+    d = bundle["decision"]
+    ev = next((e for e in bundle["evaluations"]
+               if d["judgment_set"] in (e["label"], e["name"])), None)
+    if ev is None:
+        return {}
+    return {"qrels": ev["qrels_file"], "queries": ev["queries_file"],
+            "catalogue": bundle["setup"]["catalogue"]["path"]}
+
+
 def summary(bundle: Mapping[str, Any]) -> str:
-    """Everything `trawl eval` prints after its progress bars: a quality-vs-latency table
-    per judgment set with significance marks, then the miss table's headline."""
+    """Everything `trawl eval` prints after its progress bars: the decision first, then a
+    quality-vs-latency table per judgment set with significance marks and the miss
+    table's headline."""
     lines: list[str] = []
+    if bundle.get("decision"):
+        lines += [decision(bundle["decision"], **_review_files(bundle)), ""]
     for ev in bundle["evaluations"]:
         lines += _evaluation_lines(ev, bundle)
     ag = bundle.get("agreement")
