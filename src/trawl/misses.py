@@ -12,9 +12,13 @@ Definitions (per query, types assigned as in ``scores``):
 - lost to: for queries whose rank-1 item is not relevant, the type of that item
   (``(no results)`` when the run has none for the query, ``(unknown item)`` when the item
   is not in the catalogue), as a share of those queries;
-- worst queries: the query's wanted item is its best-graded item of the row's type
-  (the highest-ranked one when there are several); queries whose wanted item is not
-  first, lowest wanted rank first (not retrieved at all counts as lowest).
+- wanted: one definition for the counts and the worst queries: a query wants its
+  relevant items, and its rank is the first rank of any of them (so a query counted as a
+  hit at k never shows its wanted item below k);
+- worst queries: queries whose first relevant item is not at rank 1, lowest first (not
+  retrieved at all counts as lowest); the item shown is that first relevant item, or,
+  when none was retrieved, the query's best-graded item of the row's type. A query whose
+  best items have several types is listed once, under the first of them by name.
 """
 
 from __future__ import annotations
@@ -142,6 +146,18 @@ def headline(run: str, rows: tuple[MissRow, ...]) -> str:
             f"item is wrong ({count} of {row.lost}; run {run})")
 
 
+def _wanted(judged: Mapping[str, int], t: str, ranking, first: int | None,
+            by_id: Mapping[str, Item]) -> ItemRef:
+    """The item a worst-query line names: the first relevant item retrieved (at rank
+    ``first``), else the best-graded item of type ``t`` (the lowest id among ties)."""
+    if first is not None:
+        found = ranking[first - 1][0]
+        return item_ref(by_id[found]) if found in by_id else _unknown_ref(found)
+    top = max(g for i, g in judged.items() if i in by_id and by_id[i].type == t)
+    return item_ref(by_id[min(i for i, g in judged.items()
+                              if g == top and i in by_id and by_id[i].type == t)])
+
+
 def miss_table(qrels: Qrels, run: Run, catalogue: Catalogue, k: int = 10, worst: int = 5,
                queries: Mapping[str, str] | None = None,
                scrub_queries: bool = False) -> MissReport:
@@ -182,16 +198,13 @@ def miss_table(qrels: Qrels, run: Run, catalogue: Catalogue, k: int = 10, worst:
             ranks.setdefault(t, []).append(float("inf") if first is None else float(first))
             if first != 1:
                 lost_to.setdefault(t, Counter())[winner_type] += 1
-            top = max(g for i, g in judged.items() if i in by_id and by_id[i].type == t)
-            wanted = sorted((position.get(i, float("inf")), i) for i, g in judged.items()
-                            if g == top and i in by_id and by_id[i].type == t)[0]
-            if wanted[0] != 1:
-                winner_ref = (None if not ranking else item_ref(winner) if winner is not None
-                              else _unknown_ref(ranking[0][0]))
-                rank = None if np.isinf(wanted[0]) else int(wanted[0])
-                wq = WorstQuery(t, qid, (queries or {}).get(qid, ""), rank,
-                                item_ref(by_id[wanted[1]]), winner_ref)
-                candidates.setdefault(t, []).append((-wanted[0], order, wq))
+            if first != 1 and t == types[qid][0]:  # listed once, under its first type
+                wq = WorstQuery(t, qid, (queries or {}).get(qid, ""), first,
+                                _wanted(judged, t, ranking, first, by_id),
+                                None if not ranking else item_ref(winner)
+                                if winner is not None else _unknown_ref(ranking[0][0]))
+                candidates.setdefault(t, []).append(
+                    (-(first or float("inf")), order, wq))
     rows = []
     for t in sorted(counted):
         c = counted[t]
