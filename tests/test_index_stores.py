@@ -73,3 +73,45 @@ def test_quantised_store_with_hnsw_or_bm25_is_refused_before_work(tmp_path):
         build_index(tiny_catalogue(), "bm25", tmp_path / "b", quiet=True,
                     store=StoreSettings("binary"))
     assert not (tmp_path / "int8").exists() and not (tmp_path / "b").exists()
+
+
+# --- systems that ask for a store (eval, demo) ----------------------------------------------------
+
+def test_system_store_options_name_the_quantised_vectors():
+    from trawl.pipeline.systems import parse_system
+
+    s = parse_system("minilm;store=int8")
+    assert (s.name, str(s.spec), s.store) == ("minilm.vectors-int8", "minilm", StoreSettings("int8"))
+    b = parse_system("minilm-int8;store=binary;rescore=fp32")
+    assert b.name == "minilm-int8.vectors-binary-fp32"
+    assert b.store == StoreSettings("binary", "fp32")
+    assert parse_system("fast=minilm-onnx;store=binary").name == "fast"
+    assert parse_system("minilm").store == StoreSettings()
+    with pytest.raises(UsageError, match="rescore= applies to store=binary only"):
+        parse_system("minilm;rescore=fp32")
+    with pytest.raises(UsageError, match="store=int8 applies to dense encoders"):
+        parse_system("bm25;store=int8")
+    with pytest.raises(UsageError, match="not one of: fp32, int8, binary"):
+        parse_system("minilm;store=int4")
+
+
+def test_evaluation_rebuilds_an_index_kept_with_another_store(tmp_path):
+    from trawl.pipeline.reuse import open_or_build
+
+    cat, loader = tiny_catalogue(), FakeLoader()
+    folder = tmp_path / "idx"
+    first, reused = open_or_build(cat, parse_dense(), folder, "exact", tmp_path / "c", True,
+                                  loader, StoreSettings("int8"))
+    assert not reused and first.manifest["store"]["kind"] == "int8"
+    same, reused = open_or_build(cat, parse_dense(), folder, "exact", tmp_path / "c", True,
+                                 loader, StoreSettings("int8"))
+    assert reused
+    other, reused = open_or_build(cat, parse_dense(), folder, "exact", tmp_path / "c", True,
+                                  loader, StoreSettings("fp32"))
+    assert not reused and other.manifest["store"]["kind"] == "fp32"
+
+
+def parse_dense():
+    from trawl.retrievers.spec import parse_spec
+
+    return parse_spec("minilm")

@@ -29,7 +29,9 @@ def _finish(result, as_json: bool) -> None:
 @in_file("qrels")
 @click.option("-e", "--encoder", "encoders", multiple=True, required=True, metavar="SPEC",
               help="Encoder to evaluate; repeat for several. NAME=SPEC names it in the "
-                   "report. Specs: minilm, minilm-int8, static:DIR, st:DIR, bm25.")
+                   "report. Specs: minilm, minilm-int8, minilm-onnx, minilm-onnx-int8, "
+                   "static:DIR, st:DIR, onnx:DIR, bm25; add ;store=int8 or ;store=binary to "
+                   "keep a dense system's vectors quantised.")
 @out_option(folder=True, required=True,
             help="Folder for indexes, runs, tables and report.html.")
 @click.option("--fuse", multiple=True, metavar="A+B",
@@ -102,7 +104,8 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
 @out_option(folder=True, default="demo-out", show_default=True,
             help="Folder for everything the demo makes.")
 @click.option("-e", "--encoder", "encoders", multiple=True, metavar="SPEC",
-              help="Evaluate only these encoders (default: minilm, minilm-int8, static, "
+              help="Evaluate only these encoders (default: minilm, minilm-int8, minilm-onnx, "
+                   "minilm-onnx-int8, 'minilm;store=int8', 'minilm;store=binary', static, "
                    "bm25; 'static' is the model the demo distils).")
 @click.option("--fuse", multiple=True, metavar="A+B",
               help="Fused systems (default: minilm+bm25 when both are evaluated).")

@@ -17,7 +17,11 @@ from .systems import plan_systems
 DEMO_CATALOGUE = Path("corpora/quillfern.jsonl")
 DEMO_GOLD_QUERIES = Path("qrels/quillfern-gold.queries.tsv")
 DEMO_GOLD_QRELS = Path("qrels/quillfern-gold.qrels")
-DEMO_ENCODERS = ("minilm", "minilm-int8", "static", "bm25")
+# minilm in the forms teams deploy: torch fp32, the model quantised (torch, onnxruntime),
+# onnxruntime fp32, and minilm's own vectors kept as int8 or sign bits (the index, not the
+# model, quantised); then the distilled static model and bm25
+DEMO_ENCODERS = ("minilm", "minilm-int8", "minilm-onnx", "minilm-onnx-int8",
+                 "minilm;store=int8", "minilm;store=binary", "static", "bm25")
 DEMO_FUSE = ("minilm+bm25",)
 STATIC_ALIAS = "static"  # in the demo, the static model it distils itself
 

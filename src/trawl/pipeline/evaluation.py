@@ -179,7 +179,7 @@ def _index_systems(plan: _Plan, cat: Catalogue, out: Path, ann: str,
             continue
         plan.say(f"index {s.name} ({len(cat)} items)")
         indexes[s.name], reused = open_or_build(cat, s.spec, out / "indexes" / s.name, ann,
-                                                cache, plan.quiet, loader)
+                                                cache, plan.quiet, loader, s.store)
         if reused:
             plan.say(f"  reused {out / 'indexes' / s.name}")
     return indexes

@@ -22,16 +22,19 @@ from ..latency import DEFAULT_WARMUP
 from ..retrievers.loading import EncoderLoader
 from ..retrievers.spec import EncoderSpec
 from ..runs import Run, read_run
+from ..stores import StoreSettings
 
 
 def open_or_build(catalogue: Catalogue, spec: EncoderSpec, folder: Path, ann: str,
-                  cache_dir: Path | None, quiet: bool, loader: EncoderLoader
-                  ) -> tuple[Any, bool]:
-    """The index in ``folder`` when it still matches (True), else (re)built (False)."""
+                  cache_dir: Path | None, quiet: bool, loader: EncoderLoader,
+                  store: StoreSettings | None = None) -> tuple[Any, bool]:
+    """The index in ``folder`` when it still matches, vector store included (True), else
+    (re)built (False)."""
     from ..index import build_index, open_index
 
+    store = store or StoreSettings()
     try:
-        index = open_index(folder, catalogue, spec, loader=loader)
+        index = open_index(folder, catalogue, spec, loader=loader, store=store)
         if index.manifest["search"]["ann"] == ann:
             if not spec.lexical:
                 index.encoder()  # refuses changed model files
@@ -39,7 +42,7 @@ def open_or_build(catalogue: Catalogue, spec: EncoderSpec, folder: Path, ann: st
     except (InputError, StaleIndexError, EncoderMismatchError):
         pass
     build_index(catalogue, spec, folder, ann=ann, cache_dir=cache_dir, quiet=quiet,
-                loader=loader)
+                loader=loader, store=store)
     return open_index(folder, catalogue, spec, loader=loader), False
 
 

@@ -1,7 +1,10 @@
 """What is evaluated: named systems, each one encoder spec or a fusion of other systems.
 
 A spec is parsed here once; the parsed ``EncoderSpec`` travels on to indexing and the
-embedding cache, so nothing further down parses the text again.
+embedding cache, so nothing further down parses the text again. A system may also say how
+its index keeps vectors (``;store=int8``, ``;store=binary[;rescore=fp32]``); its default
+name then says the vectors are quantised (``minilm.vectors-int8``), apart from a
+quantised model (``minilm-int8``).
 """
 
 from __future__ import annotations
@@ -14,8 +17,10 @@ from pathlib import Path
 
 from ..errors import UsageError
 from ..retrievers.spec import EncoderSpec, parse_spec
+from ..stores import StoreSettings
 
 NAME_CHARS = re.compile(r"[^A-Za-z0-9._+-]+")
+STORE_OPTIONS = ("store", "rescore")
 
 
 @dataclass(frozen=True)
@@ -25,6 +30,7 @@ class System:
     name: str
     spec: EncoderSpec | None
     parts: tuple[str, ...] = ()
+    store: StoreSettings = StoreSettings()
 
 
 def clean_name(text: str) -> str:
@@ -42,13 +48,40 @@ def parse_system(value: str, check_paths: bool = True) -> System:
                              "('+' joins the systems of a --fuse)")
     else:
         name, spec_text = "", value
+    spec_text, store = _peel_store(spec_text)
     spec = parse_spec(spec_text, check_paths=check_paths)
+    if spec.lexical and store.kind != "fp32":
+        raise UsageError(f"{value!r}: store={store.kind} applies to dense encoders; bm25 keeps "
+                         "an inverted index, not vectors")
     if not name:
         shown = str(spec)
         if spec.path:
             shown = shown.replace(f"{spec.kind}:{spec.path}", f"{spec.kind}-{Path(spec.path).name}")
-        name = clean_name(shown)
-    return System(name, spec)
+        name = clean_name(shown) + store_suffix(store)
+    return System(name, spec, store=store)
+
+
+def store_suffix(store: StoreSettings) -> str:
+    """What a default system name adds for quantised vectors: '' for fp32."""
+    if store.kind == "fp32":
+        return ""
+    extra = f"-{store.rescore}" if store.kind == "binary" and store.rescore != "int8" else ""
+    return f".vectors-{store.kind}{extra}"
+
+
+def _peel_store(text: str) -> tuple[str, StoreSettings]:
+    """The spec without its ``store=``/``rescore=`` options, and the store they ask for."""
+    head, *opts = text.split(";")
+    kept, found = [head], {}
+    for opt in opts:
+        key, eq, value = opt.partition("=")
+        if eq and key.strip().lower() in STORE_OPTIONS:
+            found[key.strip().lower()] = value.strip().lower()
+        else:
+            kept.append(opt)
+    if "rescore" in found and found.get("store") != "binary":
+        raise UsageError(f"{text!r}: rescore= applies to store=binary only")
+    return ";".join(kept), StoreSettings(found.get("store", "fp32"), found.get("rescore", "int8"))
 
 
 def plan_systems(encoders: Sequence[str], fuse: Sequence[str] = (),
