@@ -48,7 +48,7 @@ class Rewording:
     hypernyms: bool = False
     phrases: frozenset[tuple[str, str]] = frozenset()  # kept whole: swapping half a term breaks it
     known: Callable[[str], bool] | None = None  # words the catalogue's domain uses
-    names: frozenset[str] = frozenset()  # kept as written: no synonym for "Harrowgate" or "March"
+    names: frozenset[str] = frozenset()  # kept as written: no synonym for "Tarrowby" or "March"
     _memo: dict[str, list[str]] = field(default_factory=dict, compare=False, repr=False)
 
     def sense(self, word: str, pos: str) -> int | None:
