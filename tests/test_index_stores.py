@@ -115,3 +115,22 @@ def parse_dense():
     from trawl.retrievers.spec import parse_spec
 
     return parse_spec("minilm")
+
+
+def test_systems_say_what_is_quantised_and_latency_says_when_the_machine_was_busy(tmp_path):
+    from trawl.pipeline.assembly import latency_entry, system_entry
+    from trawl.pipeline.reuse import open_or_build
+    from trawl.pipeline.systems import parse_system, quantised
+
+    assert [quantised(parse_system(v)) for v in
+            ("minilm", "minilm-int8", "minilm;store=binary", "minilm-onnx-int8;store=int8")] == \
+        ["none", "model", "vectors", "model and vectors"]
+    cat, loader = tiny_catalogue(), FakeLoader()
+    system = parse_system("minilm;store=int8")
+    index, _ = open_or_build(cat, system.spec, tmp_path / "idx", "exact", tmp_path / "c", True,
+                             loader, system.store)
+    entry = system_entry(system, {system.name: index}, cat)
+    assert (entry.quantised, entry.store, entry.vector_bytes) == ("vectors", "int8", 30 * 16)
+    busy = latency_entry({"p50_ms": 3.0, "threads": 1, "busy": True, "cores": 2,
+                          "load_before": [5.2, 4.0, 3.0], "load_after": [6.1, 4.1, 3.0]})
+    assert (busy.threads, busy.load, busy.busy) == (1, 6.1, True)

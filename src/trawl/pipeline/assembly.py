@@ -17,7 +17,7 @@ from ..privacy import describe_counts
 from .bundle import AgreementInfo, Evaluation, Latency, SystemInfo, from_json
 from .searching import Searched
 from .sets import LoadedSet
-from .systems import System
+from .systems import System, quantised
 
 VERSIONED_PACKAGES = ("numpy", "torch", "sentence-transformers", "faiss-cpu", "bm25s",
                       "model2vec", "scipy")
@@ -29,17 +29,23 @@ def system_entry(s: System, indexes: Mapping[str, Any], cat: Catalogue) -> Syste
     if s.spec is None:
         size = sum(indexes[p].bytes for p in s.parts)
         return SystemInfo(s.name, f"rrf({', '.join(s.parts)}; k={RRF_K})", "fused", None, None,
-                          size, round(size / len(cat), 1))
+                          size, round(size / len(cat), 1), quantised="parts")
     info = indexes[s.name].info
+    dense = not s.spec.lexical
     return SystemInfo(s.name, str(s.spec), "lexical" if s.spec.lexical else s.spec.kind,
                       info.encoder_fingerprint, info.dim or None, info.bytes,
-                      round(info.bytes / len(cat), 1))
+                      round(info.bytes / len(cat), 1), quantised=quantised(s),
+                      store=info.store if dense else None,
+                      vector_bytes=info.vector_bytes if dense else None)
 
 
 def latency_entry(figures: Mapping[str, Any]) -> Latency:
     """The latency figures the bundle keeps from a run's sidecar."""
+    loads = [x[0] for x in (figures.get("load_before"), figures.get("load_after")) if x]
     return Latency(*(figures.get(key) for key in LATENCY_FIELDS),
-                   queries_per_s=figures.get("batch_queries_per_s"))
+                   queries_per_s=figures.get("batch_queries_per_s"),
+                   threads=figures.get("threads"), load=max(loads) if loads else None,
+                   busy=figures.get("busy"))
 
 
 def evaluation_entry(ld: LoadedSet, names: Sequence[str], baseline: str,

@@ -69,6 +69,14 @@ class SystemInfo:
     dimensions: int | None = _doc("vector size; None for lexical and fused systems")
     index_bytes: int = _doc("bytes on disk (a fusion: its parts' added up)")
     bytes_per_item: float
+    quantised: str = _doc("what runs or is kept as int8 or bits: 'none', 'model' (its weights; "
+                          "the vectors stay fp32, so the index keeps its size), 'vectors' (the "
+                          "index's), 'model and vectors', or 'parts' for a fusion",
+                          default="none")
+    store: str | None = _doc("how the index keeps vectors: fp32, int8, binary+int8 or "
+                             "binary+fp32; None for lexical and fused systems", default=None)
+    vector_bytes: int | None = _doc("bytes of the vectors (codes) searched; None for lexical "
+                                    "and fused systems", default=None)
 
 
 # --- one judgment set -------------------------------------------------------------------------
@@ -83,6 +91,11 @@ class Latency:
     mean_ms: float | None
     queries_per_s: float | None = _doc("whole query set in one call; a fusion: its parts' "
                                        "batch times added up")
+    threads: int | None = _doc("compute threads while timing single queries", default=None)
+    load: float | None = _doc("highest 1-minute load average seen before or after timing",
+                              default=None)
+    busy: bool | None = _doc("load above the cores while timing: the latency is inflated by "
+                             "waiting for a core", default=None)
 
 
 @dataclass(frozen=True)

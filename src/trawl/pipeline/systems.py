@@ -61,6 +61,14 @@ def parse_system(value: str, check_paths: bool = True) -> System:
     return System(name, spec, store=store)
 
 
+def quantised(s: System) -> str:
+    """What an encoder system runs or keeps quantised: none, model, vectors or both."""
+    model = s.spec is not None and s.spec.quantised_model
+    vectors = s.store.kind != "fp32"
+    return ("model and vectors" if model and vectors else "model" if model
+            else "vectors" if vectors else "none")
+
+
 def store_suffix(store: StoreSettings) -> str:
     """What a default system name adds for quantised vectors: '' for fp32."""
     if store.kind == "fp32":

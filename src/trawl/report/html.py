@@ -178,11 +178,16 @@ def _setup(bundle: Mapping[str, Any], looks: Mapping[str, Look]) -> Markup:
                          s.get("kind", ""),
                          el("code", None, s["fingerprint"][:12]) if s.get("fingerprint")
                          else fmt.MISSING,
-                         s.get("dimensions") or fmt.MISSING, fmt.size(s.get("index_bytes")),
-                         fmt.size(s.get("bytes_per_item"))])
-    systems = _table(["system", "spec", "kind", "fingerprint", "dimensions", "index size",
-                      "per item"], sys_rows, caption="Systems under test",
-                     numeric=[False, False, False, False, True, True, True])
+                         s.get("dimensions") or fmt.MISSING, s.get("quantised", "none"),
+                         s.get("store") or fmt.MISSING, fmt.size(s.get("vector_bytes")),
+                         fmt.size(s.get("index_bytes")), fmt.size(s.get("bytes_per_item"))])
+    systems = _table(["system", "spec", "kind", "fingerprint", "dimensions", "quantised",
+                      "vectors kept as", "vector bytes", "index size", "per item"], sys_rows,
+                     caption="Systems under test. A quantised model (minilm-int8) runs its "
+                             "weights as int8 but stores fp32 vectors, so its index is as "
+                             "large as minilm's; quantised vectors (.vectors-int8, "
+                             ".vectors-binary) shrink the index, not the model.",
+                     numeric=[False] * 4 + [True, False, False] + [True] * 3)
     settings = [("catalogue", el("code", None, cat["path"])),
                 ("fingerprint", el("code", None, cat["fingerprint"])),
                 ("metrics", ", ".join(setup["metrics"])),
@@ -250,16 +255,21 @@ def _quality_latency(bundle, ev, slug: str, primary: str, looks) -> Markup:
         rows.append([_swatch(name, looks), _cell(fmt.num(sc["mean"]), key),
                      _cell(fmt.interval(sc["low"], sc["high"]), key + "|interval"),
                      _cell(fmt.ms(lat.get("p50_ms"))), _cell(fmt.ms(lat.get("p95_ms"))),
-                     _cell(fmt.num(lat.get("queries_per_s"), 0)),
+                     _cell(fmt.ms(lat.get("p99_ms"))), _cell(fmt.num(lat.get("queries_per_s"), 0)),
                      _cell(fmt.size(systems.get(name, {}).get("index_bytes")))])
     estimate = " (silver: estimates)" if ev.get("silver") else ""
     title = f"{primary} against p50 query latency, {ev['label']}{estimate}"
     chart = (quality_latency(points, primary, f"chart-ql-{slug}", title) if points
              else el("p", None, "No latency figures to plot."))
-    table = _table(["system", primary, "95% interval", "p50 ms", "p95 ms", "queries/s",
-                    "index size"], rows, caption=f"Figures behind the chart: {title}")
+    table = _table(["system", primary, "95% interval", "p50 ms", "p95 ms", "p99 ms",
+                    "queries/s", "index size"], rows, caption=f"Figures behind the chart: {title}")
     notes = ev.get("latency_note") or ("Latency: one query at a time (encode + search), "
                                        "warm-up excluded.")
+    busy = [lat.get("load") for lat in ev["latency"].values() if lat.get("busy")]
+    if busy:
+        notes += (f" Warning: the machine was busier than its cores while timing (load "
+                  f"average up to {max(busy):.1f}); latency is inflated, compare systems "
+                  "with each other rather than with a target.")
     return el("div", {"class_": "block", "id": f"quality-{slug}"},
               el("h3", None, "Quality and speed"),
               _figure(chart, f"Up is better, left is faster. Whiskers: 95% bootstrap interval "

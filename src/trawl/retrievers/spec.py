@@ -29,6 +29,7 @@ SPEC_FORMS = ("minilm", "minilm-int8", "minilm-onnx", "minilm-onnx-int8", "stati
               "st:DIR[;query=PREFIX][;document=PREFIX]",
               "onnx:DIR[;query=PREFIX][;document=PREFIX]", "bm25[;k1=X][;b=Y]")
 BUNDLED_KINDS = ("minilm", "minilm-int8", "minilm-onnx", "minilm-onnx-int8")
+QUANTISED_MODEL_KINDS = ("minilm-int8", "minilm-onnx-int8")
 FOLDER_KINDS = ("st", "static", "onnx")
 BM25_K1 = 1.5   # bm25s' defaults (its "lucene" variant), the reference configuration
 BM25_B = 0.75
@@ -48,6 +49,11 @@ class EncoderSpec:
     @property
     def lexical(self) -> bool:
         return self.kind == "bm25"
+
+    @property
+    def quantised_model(self) -> bool:
+        """The model's weights run as int8 (its vectors are still stored as computed)."""
+        return self.kind in QUANTISED_MODEL_KINDS
 
     def __str__(self) -> str:
         """Canonical spec string (defaults omitted), round-trips through ``parse_spec``."""
