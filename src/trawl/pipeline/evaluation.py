@@ -25,6 +25,7 @@ from .assembly import (agreement_entry, evaluation_entry, scrub_note, setup_note
 from .bundle import FORMAT, AgreementInfo, CatalogueInfo, Evaluation, Results, Setup
 from .deciding import checked_limits, evaluation_decision
 from .outputs import write_json, write_tables
+from .publish import clear_leftovers, publish, staged
 from .searching import Notify, Searched, merge_runs, search_set
 from .sets import JudgmentSet, LoadedSet, load_set
 from .systems import System, clean_name, plan_systems
@@ -108,15 +109,34 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
     plan = _Plan(systems, baseline, metric_names, min(k, len(cat)), resamples, seed, alpha,
                  retime, threads, quiet, scrub_queries, notify or (lambda _msg: None),
                  checked_limits(limits, metric_names[0]))
+    clear_leftovers(out)
     indexes = _index_systems(plan, cat, out, ann,
                              Path(cache_dir) if cache_dir is not None else None)
+    with staged(out) as stage:  # published as a whole at the end (pipeline.publish)
+        results = _evaluate_into(plan, cat, loaded, indexes, out, stage, agreement, k, ann,
+                                 title)
+        report = out / "report.html"
+        publish(stage, out)
+    return EvalResult(out, report, results, time.perf_counter() - started)
+
+
+def _evaluate_into(plan: _Plan, cat: Catalogue, loaded: Sequence[LoadedSet],
+                   indexes: Mapping[str, Any], out: Path, stage: Path,
+                   agreement: tuple[str, str] | None, k: int, ann: str,
+                   title: str | None) -> Results:
+    """Search every set (runs go to ``out``), score and tabulate, and write the tables,
+    results.json and report.html into ``stage``."""
+    systems, metric_names, resamples, seed, alpha = (plan.systems, plan.metrics,
+                                                     plan.resamples, plan.seed, plan.alpha)
+    scrub_queries = plan.scrub
     scrubbed = dict.fromkeys(PRIVACY_KINDS, 0)
     evaluations: list[Evaluation] = []
     searched: dict[str, Searched] = {}
     for ld in loaded:
-        searched[ld.spec.name], entry = _evaluate_set(plan, ld, cat, indexes, out, scrubbed)
+        searched[ld.spec.name], entry = _evaluate_set(plan, ld, cat, indexes, out, scrubbed,
+                                                      stage)
         evaluations.append(entry)
-    agreed = _agreement(plan, agreement, loaded, searched, out) if agreement else None
+    agreed = _agreement(plan, agreement, loaded, searched, stage) if agreement else None
     notes = setup_notes(systems, k, plan.depth, ann, cat, list(searched.values()))
     notes["privacy"] = scrub_note(scrubbed) if scrub_queries else (
         "query text shown as given in the report and tables, not scrubbed of personal data")
@@ -130,12 +150,11 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         evaluation_decision(systems, loaded, searched, indexes, plan.limits, resamples, seed,
                             alpha))
     bundle = results.as_dict()
-    write_json(out / "results.json", bundle)
+    write_json(stage / "results.json", bundle)
     from ..report.html import render_html
 
-    report = out / "report.html"
-    write_text_atomic(report, render_html(bundle))
-    return EvalResult(out, report, results, time.perf_counter() - started)
+    write_text_atomic(stage / "report.html", render_html(bundle))
+    return results
 
 
 def _check_request(encoders: Sequence[str], fuse: Sequence[str], baseline: str | None,
@@ -186,9 +205,11 @@ def _index_systems(plan: _Plan, cat: Catalogue, out: Path, ann: str,
 
 
 def _evaluate_set(plan: _Plan, ld: LoadedSet, cat: Catalogue, indexes: Mapping[str, Any],
-                  out: Path, scrubbed: dict[str, int]) -> tuple[Searched, Evaluation]:
-    """Search, score, compare and tabulate misses for one judgment set; write its tables.
-    ``scrubbed`` counts what was scrubbed from the query text shown."""
+                  out: Path, scrubbed: dict[str, int], stage: Path
+                  ) -> tuple[Searched, Evaluation]:
+    """Search, score, compare and tabulate misses for one judgment set; write its runs
+    into ``out`` and its tables into ``stage``. ``scrubbed`` counts what was scrubbed
+    from the query text shown."""
     from ..compare import compare_scores
     from ..misses import miss_table
     from ..scores import score_runs
@@ -211,7 +232,7 @@ def _evaluate_set(plan: _Plan, ld: LoadedSet, cat: Catalogue, indexes: Mapping[s
             scrubbed[kind] += n
     misses = [miss_table(ld.qrels, runs[n], cat, min(MISS_K, plan.depth), WORST_QUERIES,
                          shown) for n in plan.names]
-    write_tables(folder, scores, comparison, misses)
+    write_tables(stage / js.name, scores, comparison, misses)
     return found, evaluation_entry(ld, plan.names, plan.baseline, found.latency, scores,
                                    comparison, misses)
 

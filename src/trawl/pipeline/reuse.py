@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import hashlib
 import json
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -22,6 +22,9 @@ from ..latency import DEFAULT_WARMUP
 from ..retrievers.loading import EncoderLoader
 from ..retrievers.spec import EncoderSpec
 from ..runs import Run, read_run
+from .publish import stamp_matches
+
+RUN_STAMP = "run_file"  # latency sidecar key: size and SHA-256 of the run file
 from ..stores import StoreSettings
 
 
@@ -66,13 +69,20 @@ def fused_key(part_keys: Sequence[str], depth: int) -> str:
                     "trawl": __version__})
 
 
-def previous_search(run_path: Path, name: str, key: str, queries: Mapping[str, str]
+def previous_search(run_path: Path, name: str, key: str, queries: Mapping[str, str],
+                    note: Callable[[str], None] = lambda _why: None
                     ) -> tuple[Run, dict[str, Any]] | None:
-    """The run and latency figures an earlier evaluation wrote for the same inputs."""
+    """The run and latency figures an earlier evaluation wrote for the same inputs, when
+    the run file is still what it wrote (size and checksum in the sidecar); ``note``
+    hears why a run with the same inputs is not reused."""
     sidecar = Path(f"{run_path}.latency.json")
     try:
         latency = json.loads(sidecar.read_text(encoding="utf-8"))
         if not isinstance(latency, dict) or latency.get("inputs") != key:
+            return None
+        if not stamp_matches(run_path, latency.pop(RUN_STAMP, None)):
+            note(f"{run_path} is not the file the last evaluation wrote (size or checksum "
+                 "differ, or none recorded)")
             return None
         run = read_run(run_path, name=name)
     except (OSError, ValueError, TrawlError):

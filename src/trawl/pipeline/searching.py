@@ -14,7 +14,8 @@ from ..latency import (DEFAULT_WARMUP, fused_throughput, measure_fused, measure_
                        use_threads)
 from ..runs import Run, write_run
 from .outputs import write_json
-from .reuse import fused_key, previous_search, search_key
+from .publish import file_stamp
+from .reuse import RUN_STAMP, fused_key, previous_search, search_key
 from .systems import System
 
 Notify = Callable[[str], None]
@@ -46,8 +47,9 @@ def search_set(systems: Sequence[System], indexes: Mapping[str, Any],
             keys[s.name] = (search_key(indexes[s.name].manifest, queries, depth, in_force)
                             if s.spec is not None else
                             fused_key([keys[p] for p in s.parts], depth))
-            earlier = None if retime else previous_search(run_path, s.name, keys[s.name],
-                                                          queries)
+            earlier = None if retime else previous_search(
+                run_path, s.name, keys[s.name], queries,
+                lambda why: say(f"search {label}: {s.name}: {why}; searching again"))
             if earlier is not None:
                 say(f"search {label}: {s.name}: reusing {run_path} (same index, queries, "
                     "depth, threads)")
@@ -60,7 +62,8 @@ def search_set(systems: Sequence[System], indexes: Mapping[str, Any],
             lat["inputs"] = keys[s.name]
             runs[s.name], latency[s.name] = run, lat
             write_run(run_path, run)
-            write_json(Path(f"{run_path}.latency.json"), lat)
+            # the run file's size and checksum, checked before it is reused
+            write_json(Path(f"{run_path}.latency.json"), {**lat, RUN_STAMP: file_stamp(run_path)})
     return Searched(runs, latency, tuple(reused))
 
 
