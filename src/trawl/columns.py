@@ -44,12 +44,12 @@ class RankedColumns(Mapping[str, tuple[tuple[str, float], ...]]):
 
     Lines are grouped by query (queries in file order of first appearance) and within a
     query in trec_eval order; ``offsets[i]:offsets[i + 1]`` are query i's lines,
-    ``codes`` index ``vocabulary`` (each distinct item id once) and ``scores`` hold the
-    scores.
+    ``codes`` index ``vocabulary`` (each distinct item id once) and ``scores`` holds the
+    scores (``Scores``: as written, or coded when they repeat).
     """
 
     def __init__(self, qids: list[str], offsets: np.ndarray, codes: np.ndarray,
-                 scores: np.ndarray, vocabulary: Any) -> None:
+                 scores: Scores, vocabulary: Any) -> None:
         self.qids = qids
         self.offsets = offsets
         self.codes = codes
@@ -61,7 +61,7 @@ class RankedColumns(Mapping[str, tuple[tuple[str, float], ...]]):
         i = self._position[qid]
         a, b = int(self.offsets[i]), int(self.offsets[i + 1])
         items = self.vocabulary.take(self.codes[a:b]).to_pylist()
-        return tuple(zip(items, self.scores[a:b].tolist()))
+        return tuple(zip(items, self.scores.between(a, b)))
 
     def __iter__(self) -> Iterator[str]:
         return iter(self.qids)
@@ -83,6 +83,32 @@ class RankedColumns(Mapping[str, tuple[tuple[str, float], ...]]):
     def nbytes(self) -> int:
         return (self.offsets.nbytes + self.codes.nbytes + self.scores.nbytes
                 + self.vocabulary.nbytes)
+
+
+class Scores:
+    """A run's scores in line order, exactly as read. Runs often repeat a small set of
+    values (scores rounded to a few decimals, integer ranks as scores); up to 65,536
+    distinct values are kept as 2-byte codes into a table of them, a quarter of the
+    memory of one float64 per line, which matters when several long runs are compared."""
+
+    def __init__(self, values: np.ndarray) -> None:
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        coded = pc.dictionary_encode(pa.array(values))
+        self._table: np.ndarray | None = None
+        self._values = values
+        if len(coded.dictionary) <= 1 << 16:
+            self._table = coded.dictionary.to_numpy()
+            self._values = _view(coded.indices).astype(np.uint16)
+
+    def between(self, a: int, b: int) -> list[float]:
+        part = self._values[a:b]
+        return (part if self._table is None else self._table[part]).tolist()
+
+    @property
+    def nbytes(self) -> int:
+        return self._values.nbytes + (0 if self._table is None else self._table.nbytes)
 
 
 def result_count(results: Mapping[str, Sequence[Any]], qid: str) -> int:
@@ -294,7 +320,7 @@ def _rank_ordered(qid_values: Any, queries: np.ndarray, codes: np.ndarray,
     codes, scores = _put_in_rank_order(queries, codes, scores, item_rank)
     if _has_duplicates(queries, codes, offsets, len(vocabulary)):
         return None
-    return RankedColumns(qids, offsets, codes, scores, vocabulary)
+    return RankedColumns(qids, offsets, codes, Scores(scores), vocabulary)
 
 
 def _has_duplicates(queries: np.ndarray, codes: np.ndarray, offsets: np.ndarray,
