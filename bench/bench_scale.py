@@ -1,25 +1,25 @@
-"""Scale: a generated 200,000-item catalogue with the static encoder, end to end.
+"""Scale: score, compare and index build at the sizes of issue 18, with their references.
 
-Goals (issue 8): an index build's peak memory <= 2x the vector bytes + the model size;
-figures for build time, search throughput on 10,000 queries, and `trawl score` /
-`trawl compare` on 100,000 queries. Not a test: it takes minutes.
+Goals, as ratios taken in one run on the same files (a shared machine's load moves both
+sides together):
 
-Every step runs in a fresh child process (this script with ``--step``) that reports its
-own memory from /proc/self/status: RSS at checkpoints and the peak (VmHWM, reset through
-/proc/self/clear_refs before each phase), so the figures do not mix. Each step also
-times a bare reference in the same child, and the ratios are what travel between
-machines:
+- score on 100k queries x 100 results: peak RSS <= 0.3x and wall time <= 0.25x
+  ir_measures' (nDCG@10, RR@10, R@100 on the same files);
+- compare of 4 such runs with 10,000 resamples: peak RSS <= 0.5x ir_measures' on one
+  run and <= 1.5x trawl score's on one run;
+- 200k-item static index build: time <= 1.3x a bare encode loop (model2vec ``encode`` of
+  the same texts + ``np.save``), whole-process peak RSS <= 2x the vector bytes + the
+  model file.
 
-- build:   model2vec ``encode`` of the same texts + ``np.save`` (the least any indexer does)
-- search:  the same query encoding + one faiss ``IndexFlatIP.search`` over the vectors
-- score:   ir_measures on the same files (nDCG@10, RR@10, R@100)
-- compare: `trawl score` of the same runs (what the bootstrap and sign-flip tests add)
+Every measured step runs in a fresh child process (this script with ``--step``) that
+reports its own wall time, CPU time and peak RSS (``ru_maxrss``), so the figures do not
+mix. Inputs are generated with numpy and pyarrow in about a minute.
 
-    .venv/bin/python bench/bench_scale.py [--items 200000] [--queries 10000]
-        [--score-queries 100000] [--depth 100] [--static DIR] [--work DIR]
+    .venv/bin/python bench/bench_scale.py [--items 200000] [--score-queries 100000]
+        [--depth 100] [--runs 4] [--resamples 10000] [--static DIR] [--work DIR]
 
-Without --static a static model is distilled once into the trawl cache folder
-(``bench-static-256``) and reused by later runs.
+Without --static the distilled model in the trawl cache folder (``static-distilled``,
+as bench/silver_agreement.py uses) is used, distilled once if absent.
 """
 
 from __future__ import annotations
@@ -27,6 +27,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import resource
 import shutil
 import subprocess
 import sys
@@ -37,48 +38,17 @@ from pathlib import Path
 import numpy as np
 
 WORDS_PER_ITEM = (20, 80)  # help-centre entries: a title and a paragraph or two
-QUERY_WORDS = (2, 6)
 TYPES = ("article", "faq", "screen", "form")
 MB = 1 << 20
-
-
-# --- memory probes (Linux /proc) ----------------------------------------------------------------
-
-def status_kb(field: str) -> int:
-    for line in Path("/proc/self/status").read_text().splitlines():
-        if line.startswith(field + ":"):
-            return int(line.split()[1])
-    raise RuntimeError(f"{field} not in /proc/self/status")
-
-
-def rss() -> int:
-    return status_kb("VmRSS") * 1024
-
-
-class PeakMeter:
-    """Peak RSS per phase (VmHWM, which writing 5 to /proc/self/clear_refs resets to the
-    current RSS) and over the whole process (the largest phase peak seen)."""
-
-    def __init__(self) -> None:
-        self.overall = self.peak()
-
-    @staticmethod
-    def peak() -> int:
-        return status_kb("VmHWM") * 1024
-
-    def reset(self) -> None:
-        self.overall = max(self.overall, self.peak())
-        Path("/proc/self/clear_refs").write_text("5")
-
-    def total(self) -> int:
-        return max(self.overall, self.peak())
+GOALS = {"score_rss": 0.3, "score_wall": 0.25, "compare_vs_ref": 0.5, "compare_vs_score": 1.5,
+         "build_time": 1.3, "build_peak": 1.0}
 
 
 def mb(n: float) -> str:
     return f"{n / MB:,.0f} MB"
 
 
-# --- inputs ---------------------------------------------------------------------------------------
+# --- inputs ---------------------------------------------------------------------------------
 
 def vocabulary() -> list[str]:
     from wordfreq import top_n_list
@@ -87,243 +57,224 @@ def vocabulary() -> list[str]:
 
 
 def write_catalogue(path: Path, items: int, seed: int = 0) -> None:
-    """Items with Zipf-distributed words (like real text), written in blocks."""
+    """Items with Zipf-distributed words (like real text), all words drawn at once."""
     rng = np.random.default_rng(seed)
-    words = np.array(vocabulary())
+    words = vocabulary()
     weights = 1 / np.arange(1, len(words) + 1)
-    weights /= weights.sum()
+    lengths = rng.integers(*WORDS_PER_ITEM, size=items)
+    drawn = rng.choice(len(words), size=int(lengths.sum()), p=weights / weights.sum()).tolist()
+    ends = np.cumsum(lengths).tolist()
     with path.open("w", encoding="utf-8") as fh:
-        for start in range(0, items, 10_000):
-            lines = []
-            for i in range(start, min(items, start + 10_000)):
-                n = int(rng.integers(*WORDS_PER_ITEM))
-                w = words[rng.choice(len(words), size=n, p=weights)]
-                lines.append(json.dumps({"id": f"it{i:06d}", "type": TYPES[i % len(TYPES)],
-                                         "title": " ".join(w[:6]), "text": " ".join(w[6:])}))
-            fh.write("\n".join(lines) + "\n")
+        start = 0
+        for i, end in enumerate(ends):
+            w = [words[j] for j in drawn[start:end]]
+            start = end
+            fh.write(json.dumps({"id": f"it{i:06d}", "type": TYPES[i % len(TYPES)],
+                                 "title": " ".join(w[:6]), "text": " ".join(w[6:])}) + "\n")
 
 
-def write_queries(path: Path, n: int, seed: int = 1) -> None:
-    rng = np.random.default_rng(seed)
-    words = vocabulary()[:3000]
-    with path.open("w", encoding="utf-8") as fh:
-        for q in range(n):
-            k = int(rng.integers(*QUERY_WORDS))
-            fh.write(f"q{q}\t{' '.join(words[j] for j in rng.integers(0, len(words), k))}\n")
-
-
-def write_judged_runs(folder: Path, queries: int, depth: int, items: int,
+def write_judged_runs(folder: Path, queries: int, depth: int, items: int, runs: int,
                       seed: int = 2) -> tuple[Path, list[Path]]:
-    """qrels (one grade-2 and up to two grade-1 items per query) and two runs of
-    ``depth`` results; relevant items come from the upper half of the ids and the
-    others from the lower half, so no run lists an item twice."""
+    """qrels (one grade-2 and up to two grade-1 items per query) and ``runs`` runs of
+    ``depth`` results with 4-decimal scores (so ties occur); relevant items come from the
+    upper half of the ids and the others from the lower half, so no run lists an item
+    twice. Written by pyarrow from dictionary columns (seconds, not minutes)."""
+    import pyarrow as pa
+    from pyarrow import csv
+
     rng = np.random.default_rng(seed)
     half = items // 2
-    ids = [f"it{i:06d}" for i in range(items)]
+    ids = pa.array([f"it{i:06d}" for i in range(items)])
+    qids = pa.array([f"q{q}" for q in range(queries)])
     n_rel = rng.integers(1, 4, size=queries)
-    base = rng.integers(0, items - half, size=queries)
-    rel = half + (base[:, None] + np.arange(3)) % (items - half)  # distinct per query
+    rel = half + (rng.integers(0, items - half, size=queries)[:, None] + np.arange(3)) \
+        % (items - half)
+    mask = np.arange(3)[None, :] < n_rel[:, None]
+    options = csv.WriteOptions(include_header=False, delimiter=" ", quoting_style="none")
+
+    def column(codes: np.ndarray, values) -> pa.DictionaryArray:
+        return pa.DictionaryArray.from_arrays(pa.array(codes.astype(np.int32)), values)
+
     qrels = folder / "scale.qrels"
-    with qrels.open("w") as fh:
-        for q in range(queries):
-            fh.write("".join(f"q{q} 0 {ids[rel[q, j]]} {2 if j == 0 else 1}\n"
-                             for j in range(n_rel[q])))
-    runs = []
-    for r, hit_rate in enumerate((0.55, 0.65)):
+    rows = np.repeat(np.arange(queries), n_rel)
+    csv.write_csv(pa.table({
+        "qid": column(rows, qids), "iter": pa.array(np.zeros(rows.size, dtype=np.int64)),
+        "item": column(rel[mask], ids),
+        "grade": pa.array(np.broadcast_to([2, 1, 1], (queries, 3))[mask])}), qrels, options)
+    paths = []
+    for r in range(runs):
+        hit_rate = 0.5 + 0.05 * r
         perm = rng.permutation(half)[:depth]
         path = folder / f"run{r}.run"
-        with path.open("w") as fh:
-            for start in range(0, queries, 5000):
-                lines = []
-                for q in range(start, min(queries, start + 5000)):
-                    row = (perm + q) % half
-                    for j in range(n_rel[q]):
-                        if rng.random() < hit_rate:
-                            row[int(rng.integers(0, depth))] = rel[q, j]
-                    scores = np.round(np.sort(rng.random(depth))[::-1], 4).tolist()
-                    lines += [f"q{q} Q0 {ids[i]} {k} {s:.4f} sys{r}\n"
-                              for k, (i, s) in enumerate(zip(row.tolist(), scores), start=1)]
-                fh.write("".join(lines))
-        runs.append(path)
-    return qrels, runs
+        tag = pa.array([f"sys{r}"])
+        with csv.CSVWriter(path, pa.schema([("qid", pa.dictionary(pa.int32(), pa.string())),
+                                            ("q0", pa.dictionary(pa.int32(), pa.string())),
+                                            ("item", pa.dictionary(pa.int32(), pa.string())),
+                                            ("rank", pa.int64()), ("score", pa.float64()),
+                                            ("tag", pa.dictionary(pa.int32(), pa.string()))]),
+                           write_options=options) as writer:
+            for start in range(0, queries, 10_000):
+                q = np.arange(start, min(queries, start + 10_000))
+                shown = (perm[None, :] + q[:, None]) % half
+                for j in range(3):
+                    take = (j < n_rel[q]) & (rng.random(q.size) < hit_rate)
+                    at = rng.integers(0, depth, size=q.size)
+                    shown[take, at[take]] = rel[q[take], j]
+                scores = np.round(np.sort(rng.random((q.size, depth)), axis=1)[:, ::-1], 4)
+                n = q.size * depth
+                writer.write_table(pa.table({
+                    "qid": column(np.repeat(q, depth), qids),
+                    "q0": column(np.zeros(n), pa.array(["Q0"])),
+                    "item": column(shown.ravel(), ids),
+                    "rank": pa.array(np.tile(np.arange(1, depth + 1), q.size)),
+                    "score": pa.array(scores.ravel()),
+                    "tag": column(np.zeros(n), tag)}))
+        paths.append(path)
+    return qrels, paths
 
 
 def static_model(given: str | None) -> Path:
     if given:
         return Path(given)
-    from trawl.embedcache import default_cache_dir
     from trawl.distill import distill_static
+    from trawl.embedcache import default_cache_dir
 
-    folder = default_cache_dir() / "bench-static-256"
+    folder = default_cache_dir() / "static-distilled"
     if not (folder / "config.json").is_file():
         print(f"distilling a static model into {folder} (once) ...", flush=True)
         distill_static(folder, quiet=True)
     return folder
 
 
-# --- child steps -----------------------------------------------------------------------------
+# --- child steps (each in its own process) ---------------------------------------------------
 
 def step_build(a: dict) -> dict:
-    import trawl.index.build as index_mod
     from trawl.catalogue import load_catalogue
-    from trawl.retrievers.loading import EncoderLoader
-    from trawl.retrievers.spec import parse_spec
+    from trawl.index import build_index
 
-    meter = PeakMeter()
-    out: dict = {"rss_start": rss()}
-    t = time.perf_counter()
     cat = load_catalogue(a["catalogue"])
-    out["load_s"] = time.perf_counter() - t
-    out["rss_catalogue"] = rss()
-    spec = f"static:{a['model']}"
-    loader = EncoderLoader()
-    encoder = loader.encoder(parse_spec(spec))
-    encoder.encode_documents(["warm up"], 1)
-    out["rss_model"] = rss()
-
-    phases: dict[str, dict] = {}
-    original_embed, original_write = index_mod._embed, index_mod._write_dense
-
-    def watched(name, fn):
-        def run(*args, **kw):
-            before = rss()
-            meter.reset()
-            result = fn(*args, **kw)
-            phases[name] = {"rss_before": before, "peak": meter.peak(), "rss_after": rss()}
-            return result
-        return run
-
-    index_mod._embed = watched("embed", original_embed)
-    index_mod._write_dense = watched("write", original_write)
-    meter.reset()
-    before = rss()
     t = time.perf_counter()
-    info = index_mod.build_index(cat, spec, a["index"], cache_dir=a["cache"], quiet=True,
-                                 loader=loader)
-    out["build_s"] = time.perf_counter() - t
-    out["build_peak"] = meter.total()  # the process's peak RSS up to the end of the build
-    out["build_rss_before"] = before
-    out["phases"] = phases
-    out["dim"], out["items"], out["index_bytes"] = info.dim, info.items, info.bytes
-    index_mod._embed, index_mod._write_dense = original_embed, original_write
+    info = build_index(cat, f"static:{a['model']}", a["index"], cache_dir=a["cache"],
+                       quiet=True)
+    return {"s": time.perf_counter() - t, "items": info.items, "dim": info.dim}
 
-    t = time.perf_counter()  # the same catalogue again: every vector from the cache
-    again = index_mod.build_index(cat, spec, a["index"], cache_dir=a["cache"], quiet=True,
-                                  loader=loader)
-    out["rebuild_s"] = time.perf_counter() - t
-    out["rebuild_reused"] = again.reused
 
-    model = loader.model("static", str(Path(a["model"]).resolve()), lambda: None)
-    meter.reset()
-    before = rss()
+def step_bare(a: dict) -> dict:
+    """The least any indexer does: load the model, encode every text, save the matrix."""
+    from model2vec import StaticModel
+
+    from trawl.catalogue import load_catalogue
+
+    cat = load_catalogue(a["catalogue"])
     t = time.perf_counter()
-    texts = cat.texts()
-    vectors = model.encode(texts, batch_size=1024, show_progress_bar=False,
+    model = StaticModel.from_pretrained(a["model"])
+    vectors = model.encode(cat.texts(), batch_size=1024, show_progress_bar=False,
                            use_multiprocessing=False)
     np.save(Path(a["work"]) / "bare.npy", vectors.astype(np.float32))
-    out["bare_s"] = time.perf_counter() - t
-    out["bare_peak_above"] = meter.peak() - before
+    return {"s": time.perf_counter() - t}
+
+
+def step_ir_measures(a: dict) -> dict:
+    import ir_measures
+    from ir_measures import RR, R, nDCG
+
+    qrels = ir_measures.read_trec_qrels(a["qrels"])
+    run = ir_measures.read_trec_run(a["run"])
+    got = ir_measures.calc_aggregate([nDCG @ 10, RR @ 10, R @ 100], qrels, run)
+    return {"values": {str(k): v for k, v in got.items()}}
+
+
+def step_trawl(a: dict) -> dict:
+    """One trawl CLI command, in this process."""
+    from click.testing import CliRunner
+
+    from trawl.cli import main
+
+    result = CliRunner().invoke(main, a["argv"], catch_exceptions=False)
+    if result.exit_code != 0:
+        raise SystemExit(f"trawl {a['argv'][0]} failed: {result.output}")
+    return {"output": result.output[-2000:]}
+
+
+STEPS = {"build": step_build, "bare": step_bare, "ir_measures": step_ir_measures,
+         "trawl": step_trawl}
+
+
+def run_step(step: str, args: dict) -> dict:
+    t = time.perf_counter()
+    out = STEPS[step](args)
+    usage = resource.getrusage(resource.RUSAGE_SELF)
+    out.update(wall=time.perf_counter() - t, cpu=usage.ru_utime + usage.ru_stime,
+               peak=usage.ru_maxrss * 1024)
     return out
-
-
-def step_search(a: dict) -> dict:
-    import faiss
-
-    from trawl.catalogue import load_catalogue
-    from trawl.index import open_index
-    from trawl.queries import read_queries
-
-    queries = read_queries(a["queries"])
-    cat = load_catalogue(a["catalogue"])
-    out: dict = {"rss_start": rss()}
-    t = time.perf_counter()
-    index = open_index(a["index"], cat, f"static:{a['model']}")
-    encoder = index.encoder()
-    encoder.encode_queries(["warm up"], 64)
-    out["open_s"] = time.perf_counter() - t
-    out["rss_open"] = rss()
-    warm = dict(list(queries.items())[:200])
-    index.search(warm, k=a["k"], quiet=True)
-    meter = PeakMeter()
-    meter.reset()
-    before = rss()
-    t = time.perf_counter()
-    run = index.search(queries, k=a["k"], quiet=True)
-    out["search_s"] = time.perf_counter() - t
-    out["search_peak_above"] = meter.peak() - before
-    out["results"] = sum(len(p) for p in run.results.values())
-
-    vectors = np.load(Path(a["index"]) / "vectors.npy")
-    flat = faiss.IndexFlatIP(vectors.shape[1])
-    flat.add(vectors)
-    texts = list(queries.values())
-    t = time.perf_counter()
-    for s in range(0, len(texts), 64):  # the batch size trawl searches with
-        flat.search(encoder.encode_queries(texts[s:s + 64], 64), a["k"])
-    out["bare_s"] = time.perf_counter() - t
-    out["queries"] = len(queries)
-    return out
-
-
-def step_cli(a: dict) -> dict:
-    """One trawl CLI command (score or compare) or the ir_measures reference, timed."""
-    import resource
-
-    argv = a["argv"]
-    t = time.perf_counter()
-    cpu0 = resource.getrusage(resource.RUSAGE_SELF)
-    if argv[0] == "ir_measures":
-        import ir_measures
-        from ir_measures import RR, R, nDCG
-
-        qrels = ir_measures.read_trec_qrels(argv[1])
-        run = ir_measures.read_trec_run(argv[2])
-        ir_measures.calc_aggregate([nDCG @ 10, RR @ 10, R @ 100], qrels, run)
-    else:
-        from click.testing import CliRunner
-
-        from trawl.cli import main
-
-        result = CliRunner().invoke(main, argv, catch_exceptions=False)
-        if result.exit_code != 0:
-            raise SystemExit(f"{argv[0]} failed: {result.output}")
-    cpu1 = resource.getrusage(resource.RUSAGE_SELF)
-    return {"wall_s": time.perf_counter() - t,
-            "cpu_s": (cpu1.ru_utime - cpu0.ru_utime) + (cpu1.ru_stime - cpu0.ru_stime),
-            "peak": cpu1.ru_maxrss * 1024}
-
-
-STEPS = {"build": step_build, "search": step_search, "cli": step_cli}
 
 
 def child(step: str, **args) -> dict:
+    """Run one step in a fresh interpreter; its peak RSS is that process's alone."""
+    t = time.perf_counter()
     proc = subprocess.run([sys.executable, __file__, "--step", step, json.dumps(args)],
                           capture_output=True, text=True,
                           env=dict(os.environ, HF_HUB_OFFLINE="1", TRANSFORMERS_OFFLINE="1"))
     if proc.returncode != 0:
         sys.exit(f"step {step} failed:\n{proc.stderr[-3000:]}")
-    return json.loads(proc.stdout.strip().splitlines()[-1])
+    out = json.loads(proc.stdout.strip().splitlines()[-1])
+    out["process_wall"] = time.perf_counter() - t  # interpreter start and imports included
+    return out
 
 
 # --- the report ------------------------------------------------------------------------------
 
+def verdict(ratio: float, goal: float) -> str:
+    return f"{ratio:.2f}x (goal <= {goal}x: {'met' if ratio <= goal else 'MISSED'})"
+
+
+def report_score(ref: dict, score: dict, comp: dict, runs: int, resamples: int) -> None:
+    print(f"{'':<46} {'wall':>8} {'CPU':>8} {'peak RSS':>10}")
+    for name, r in ((f"ir_measures, one run (3 metrics)", ref),
+                    ("trawl score, one run (3 metrics)", score),
+                    (f"trawl compare, {runs} runs, {resamples:,} resamples", comp)):
+        print(f"  {name:<44} {r['process_wall']:7.1f}s {r['cpu']:7.1f}s {mb(r['peak']):>10}")
+    print(f"  score / ir_measures: peak RSS {verdict(score['peak'] / ref['peak'], GOALS['score_rss'])}"
+          f"; wall {verdict(score['process_wall'] / ref['process_wall'], GOALS['score_wall'])}"
+          f"; CPU {score['cpu'] / ref['cpu']:.2f}x")
+    print(f"  compare / ir_measures (one run): peak RSS "
+          f"{verdict(comp['peak'] / ref['peak'], GOALS['compare_vs_ref'])}")
+    print(f"  compare / score (one run): peak RSS "
+          f"{verdict(comp['peak'] / score['peak'], GOALS['compare_vs_score'])}")
+    print(f"  ir_measures values: {ref['values']}")
+    print("  trawl score output (tail):")
+    print("    " + "\n    ".join(score["output"].strip().splitlines()[-6:]))
+
+
+def report_build(b: dict, bare: dict, model_bytes: int) -> None:
+    vec_bytes = b["items"] * b["dim"] * 4
+    goal = 2 * vec_bytes + model_bytes
+    print(f"  build {b['s']:.1f} s ({b['items'] / b['s']:,.0f} items/s); bare load + encode + "
+          f"save {bare['s']:.1f} s")
+    print(f"  build / bare time: {verdict(b['s'] / bare['s'], GOALS['build_time'])}")
+    print(f"  whole-process peak RSS: build {mb(b['peak'])}, bare {mb(bare['peak'])}; goal "
+          f"2 x vectors ({mb(vec_bytes)}) + model ({mb(model_bytes)}) = {mb(goal)}")
+    print(f"  build peak / goal: {verdict(b['peak'] / goal, GOALS['build_peak'])}")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--items", type=int, default=200_000)
-    ap.add_argument("--queries", type=int, default=10_000, help="queries searched")
-    ap.add_argument("--score-queries", type=int, default=100_000,
-                    help="queries scored and compared")
+    ap.add_argument("--score-queries", type=int, default=100_000)
     ap.add_argument("--depth", type=int, default=100, help="results per query in the runs")
+    ap.add_argument("--runs", type=int, default=4, help="runs compared")
     ap.add_argument("--resamples", type=int, default=10_000, help="for compare")
-    ap.add_argument("-k", type=int, default=100, help="results per query when searching")
-    ap.add_argument("--static", default=None, help="static model folder (else distil once)")
+    ap.add_argument("--static", default=None, help="static model folder")
     ap.add_argument("--work", default=None, help="scratch folder (default: a temp folder)")
     ap.add_argument("--step", default=None, help=argparse.SUPPRESS)
     args, rest = ap.parse_known_args()
     if args.step:
-        print(json.dumps(STEPS[args.step](json.loads(rest[0]))))
+        print(json.dumps(run_step(args.step, json.loads(rest[0]))))
         return
 
+    started = time.perf_counter()
+    print(f"load average at start: {' '.join(f'{x:.1f}' for x in os.getloadavg())} "
+          f"({os.cpu_count()} CPUs)")
     model = static_model(args.static)
     model_bytes = sum(p.stat().st_size for p in model.rglob("*") if p.is_file())
     work = Path(args.work or tempfile.mkdtemp(prefix="trawl-bench-scale-"))
@@ -332,75 +283,29 @@ def main() -> None:
         t = time.perf_counter()
         catalogue = work / "catalogue.jsonl"
         write_catalogue(catalogue, args.items)
-        write_queries(work / "queries.tsv", args.queries)
-        qrels, runs = write_judged_runs(work, args.score_queries, args.depth, args.items)
-        print(f"inputs: {args.items:,} items ({mb(catalogue.stat().st_size)} JSONL), "
-              f"{args.queries:,} queries, qrels + 2 runs of {args.score_queries:,} queries x "
-              f"{args.depth} ({mb(sum(r.stat().st_size for r in runs))}); generated in "
-              f"{time.perf_counter() - t:.0f} s")
-        print(f"static model {model} ({mb(model_bytes)})\n")
+        qrels, runs = write_judged_runs(work, args.score_queries, args.depth, args.items,
+                                        args.runs)
+        print(f"inputs: {args.items:,} items ({mb(catalogue.stat().st_size)}), qrels and "
+              f"{args.runs} runs of {args.score_queries:,} queries x {args.depth} "
+              f"({mb(runs[0].stat().st_size)} each); generated in "
+              f"{time.perf_counter() - t:.0f} s\n")
 
-        b = child("build", catalogue=str(catalogue), model=str(model), index=str(work / "idx"),
-                  cache=str(work / "cache"), work=str(work))
-        vec_bytes = b["items"] * b["dim"] * 4
-        goal = 2 * vec_bytes + model_bytes
-        interp = b["rss_start"]
-        cat_mem = b["rss_catalogue"] - b["rss_start"]
-        model_mem = b["rss_model"] - b["rss_catalogue"]
-        build_mem = b["build_peak"] - b["build_rss_before"]  # the build starts at the top so far
-        print(f"index build, {b['items']:,} items, {b['dim']} dims (empty cache):")
-        print(f"  load catalogue {b['load_s']:.1f} s; build {b['build_s']:.1f} s "
-              f"({b['items'] / b['build_s']:,.0f} items/s); bare encode + save {b['bare_s']:.1f} s")
-        print(f"  build / bare = {b['build_s'] / b['bare_s']:.2f}x (embedding cache, hashing, "
-              "ids, manifest, atomic swap)")
-        print(f"  rebuild of the unchanged catalogue: {b['rebuild_s']:.1f} s, "
-              f"{b['rebuild_reused']:,} vectors from the cache "
-              f"({b['build_s'] / b['rebuild_s']:.1f}x faster)")
-        print(f"  index folder {mb(b['index_bytes'])}; vectors {mb(vec_bytes)}")
-        print(f"memory (RSS), vectors = {mb(vec_bytes)}, model = {mb(model_bytes)} on disk, "
-              f"goal 2 x vectors + model = {mb(goal)}:")
-        print(f"  interpreter + libraries     {mb(interp):>9}")
-        print(f"  catalogue objects           {mb(cat_mem):>9}  "
-              f"({cat_mem / b['items']:,.0f} bytes per item)")
-        print(f"  model loaded (+ its imports){mb(model_mem):>9}")
-        for name, ph in b["phases"].items():
-            print(f"  {name + ' phase peak':<27} {mb(ph['peak'] - ph['rss_before']):>9}  "
-                  f"above its start; {mb(ph['rss_after'] - ph['rss_before'])} kept after")
-        print(f"  build working set (peak)    {mb(build_mem):>9}  = "
-              f"{build_mem / vec_bytes:.2f}x vectors; bare encode needs "
-              f"{mb(b['bare_peak_above'])} = {b['bare_peak_above'] / vec_bytes:.2f}x")
-        print(f"  process peak up to the end  {mb(b['build_peak']):>9}")
-        own = build_mem + model_mem
-        print(f"  build working set + model = {mb(own)} = {own / goal:.2f}x goal "
-              f"({'meets' if own <= goal else 'MISSES'} goal); whole process incl. "
-              f"interpreter and catalogue = {b['build_peak'] / goal:.2f}x goal\n")
+        print(f"score and compare, {args.score_queries:,} queries x {args.depth} results:")
+        ref = child("ir_measures", qrels=str(qrels), run=str(runs[0]))
+        score = child("trawl", argv=["score", str(qrels), str(runs[0]), "-m", "ndcg@10",
+                                     "-m", "mrr@10", "-m", "recall@100"])
+        comp = child("trawl", argv=["compare", str(qrels), *map(str, runs),
+                                    "--resamples", str(args.resamples)])
+        report_score(ref, score, comp, args.runs, args.resamples)
 
-        s = child("search", catalogue=str(catalogue), model=str(model), index=str(work / "idx"),
-                  queries=str(work / "queries.tsv"), k=args.k)
-        print(f"search, {s['queries']:,} queries, top {args.k} of {b['items']:,} (exact, "
-              "batches of 64):")
-        print(f"  open index {s['open_s']:.1f} s; search {s['search_s']:.1f} s = "
-              f"{s['queries'] / s['search_s']:,.0f} queries/s; bare encode + faiss "
-              f"{s['bare_s']:.1f} s = {s['queries'] / s['bare_s']:,.0f} queries/s")
-        print(f"  trawl / bare = {s['search_s'] / s['bare_s']:.2f}x; search adds "
-              f"{mb(s['search_peak_above'])} at peak ({s['results']:,} results held)\n")
-
-        ref = child("cli", argv=["ir_measures", str(qrels), str(runs[0])])
-        score = child("cli", argv=["score", str(qrels), str(runs[0]), "-m", "ndcg@10", "-m",
-                                   "mrr@10", "-m", "recall@100", "--json"])
-        comp = child("cli", argv=["compare", str(qrels), str(runs[0]), str(runs[1]),
-                                  "--resamples", str(args.resamples), "--json"])
-        n = args.score_queries
-        print(f"score and compare, {n:,} queries x {args.depth} results (wall, CPU, peak RSS):")
-        for name, r in (("ir_measures (3 metrics)", ref), ("trawl score (3 metrics)", score),
-                        (f"trawl compare (2 runs, 4 metrics, {args.resamples:,} resamples)",
-                         comp)):
-            print(f"  {name:<56} {r['wall_s']:6.1f} s  {r['cpu_s']:6.1f} s CPU  "
-                  f"{mb(r['peak']):>9}")
-        print(f"  trawl score / ir_measures = {score['cpu_s'] / ref['cpu_s']:.2f}x CPU, "
-              f"{score['wall_s'] / ref['wall_s']:.2f}x wall")
-        print(f"  trawl compare / trawl score = {comp['cpu_s'] / score['cpu_s']:.2f}x CPU "
-              "(reads two runs; adds the bootstrap and sign-flip tests)")
+        print(f"\nindex build, {args.items:,} items, static model {model} "
+              f"({mb(model_bytes)}), empty cache:")
+        b = child("build", catalogue=str(catalogue), model=str(model),
+                  index=str(work / "idx"), cache=str(work / "cache"))
+        bare = child("bare", catalogue=str(catalogue), model=str(model), work=str(work))
+        report_build(b, bare, model_bytes)
+        print(f"\nload average at end: {' '.join(f'{x:.1f}' for x in os.getloadavg())}; "
+              f"whole benchmark {time.perf_counter() - started:.0f} s")
     finally:
         if not args.work:
             shutil.rmtree(work, ignore_errors=True)
