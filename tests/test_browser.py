@@ -195,10 +195,10 @@ def test_every_section_renders(rendered):
     for name in ("silver", "gold"):
         expected |= {f"eval-{name}", f"quality-{name}", f"types-{name}", f"compare-{name}",
                      f"misses-{name}", f"worst-{name}", f"chart-ql-{name}",
-                     f"chart-types-{name}"}
+                     f"chart-types-{name}", f"chart-diff-{name}"}
     expected.add("chart-agreement")
     assert expected <= parsed.ids, expected - parsed.ids
-    assert parsed.tags.count("svg") == 5
+    assert parsed.tags.count("svg") == 7
 
 
 def test_hostile_title_shows_as_text(rendered):

@@ -192,7 +192,8 @@ def test_every_figure_matches_the_bundle(page):
 
 def test_each_chart_is_valid_svg_followed_by_a_table(page):
     charts = re.findall(r"<figure>.*?</figure>", page, flags=re.S)
-    assert len(charts) == 5  # 2 judgment sets x (quality/latency, per type) + agreement
+    # 2 judgment sets x (quality/latency, per type, difference to the baseline) + agreement
+    assert len(charts) == 7
     for fig in charts:
         svg = re.search(r"<svg.*?</svg>", fig, flags=re.S).group(0)
         root = ET.fromstring(svg)  # the standard library's XML parser: well-formed SVG

@@ -313,3 +313,56 @@ def agreement_scatter(points: Sequence[Point], x_label: str, y_label: str, chart
                           p.label)))
     desc = "; ".join(f"{p.label}: {p.x:.3f} and {p.y:.3f}" for p in points)
     return _frame(right + 170, size, title, desc, chart_id, *body)
+
+
+@dataclass(frozen=True)
+class Difference:
+    """One system's mean difference to the baseline with its interval (None: not given)."""
+
+    label: str
+    diff: float
+    low: float | None
+    high: float | None
+    look: Look
+
+
+CHAR_PX = 7.0  # width of one label character at FONT_PX, for laying out and checking labels
+
+
+def difference_intervals(rows: Sequence[Difference], metric: str, margin: float,
+                         chart_id: str, title: str) -> Markup:
+    """One line per system: its difference to the baseline with the interval, the zero
+    line, and the band of +-margin (differences the decision treats as no loss)."""
+    row_h = 28
+    width = 680
+    left = 16 + CHAR_PX * max((len(r.label) for r in rows), default=4)
+    right, top = width - 24, 12
+    bottom = top + row_h * max(len(rows), 1) + 6
+    values = [v for r in rows for v in (r.diff, r.low, r.high) if v is not None]
+    lo, hi = _span(values + [-margin, margin, 0.0], 0.12)
+    x = Scale(lo, hi, left, right)
+    body = [el("rect", {"x": _n(x(-margin)), "y": top, "width": _n(x(margin) - x(-margin)),
+                        "height": _n(bottom - top), "class_": "margin-band"}),
+            _x_axis(x, nice_ticks(lo, hi, 6), bottom, top,
+                    f"{metric}: system minus baseline"),
+            el("line", {"x1": _n(x(0)), "x2": _n(x(0)), "y1": top, "y2": _n(bottom),
+                        "class_": "zero"})]
+    for i, r in enumerate(rows):
+        y = top + row_h * i + row_h / 2
+        parts = [el("text", {"x": _n(left - 10), "y": _n(y + 4), "text_anchor": "end",
+                             "class_": "group-label"}, r.label)]
+        if r.low is not None and r.high is not None:
+            parts += [el("line", {"x1": _n(x(r.low)), "x2": _n(x(r.high)), "y1": _n(y),
+                                  "y2": _n(y), "stroke": r.look.colour, "class_": "whisker"}),
+                      _caps_h(x(r.low), x(r.high), y, r.look.colour)]
+        parts.append(marker(r.look.marker, x(r.diff), y, r.look.colour))
+        body.append(el("g", {"class_": "diff-row"}, *parts))
+    desc = "; ".join(f"{r.label}: {r.diff:+.3f}" + (
+        f" ({r.low:+.3f} to {r.high:+.3f})" if r.low is not None and r.high is not None
+        else "") for r in rows) + f"; margin band +-{margin:g}"
+    return _frame(width, int(bottom + 44), title, desc, chart_id, *body)
+
+
+def _caps_h(x1: float, x2: float, y: float, colour: str) -> Markup:
+    return join(el("line", {"x1": _n(xx), "x2": _n(xx), "y1": _n(y - 4), "y2": _n(y + 4),
+                            "stroke": colour, "class_": "whisker"}) for xx in (x1, x2))

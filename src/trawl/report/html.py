@@ -27,6 +27,8 @@ def render_html(bundle: Mapping[str, Any]) -> str:
     """The whole report as one HTML string (deterministic: same bundle, same bytes)."""
     looks = {s["name"]: look(i) for i, s in enumerate(bundle["systems"])}
     evaluations = bundle["evaluations"]
+    from .decision_html import decision_section
+
     sections = [_setup(bundle, looks)]
     for i, ev in enumerate(evaluations):
         sections.append(_evaluation(bundle, ev, i + 2, looks))
@@ -44,6 +46,7 @@ def render_html(bundle: Mapping[str, Any]) -> str:
                  el("style", None, Markup(STYLE))),
               el("body", None,
                  _masthead(bundle, title),
+                 decision_section(bundle, looks),
                  _contents(bundle),
                  el("main", None, *sections),
                  el("footer", None, "Written by trawl ", bundle.get("trawl_version", ""),
@@ -94,6 +97,8 @@ def _silver_trust(bundle: Mapping[str, Any]) -> Markup | str:
 
 def _contents(bundle: Mapping[str, Any]) -> Markup:
     items = [el("li", None, el("a", {"href": "#setup"}, "Setup"))]
+    if bundle.get("decision"):
+        items.insert(0, el("li", None, el("a", {"href": "#decision"}, "Decision")))
     for ev in bundle["evaluations"]:
         items.append(el("li", None, el("a", {"href": f"#eval-{_slug(ev['name'])}"},
                                        "Results: ", ev["label"])))
@@ -218,6 +223,8 @@ def _badge(ev: Mapping[str, Any], silver: str, human: str, unknown: str) -> Mark
 
 def _evaluation(bundle: Mapping[str, Any], ev: Mapping[str, Any], number: int,
                 looks: Mapping[str, Look]) -> Markup:
+    from .decision_html import comparison_block
+
     slug = _slug(ev["name"])
     anchor = f"eval-{slug}"
     primary = bundle["setup"]["primary"]
@@ -232,7 +239,7 @@ def _evaluation(bundle: Mapping[str, Any], ev: Mapping[str, Any], number: int,
     parts = [intro, warnings,
              _quality_latency(bundle, ev, slug, primary, looks),
              _per_type(bundle, ev, slug, primary, looks),
-             _comparison(bundle, ev, slug),
+             comparison_block(bundle, ev, slug, looks),
              _misses(ev, slug, looks),
              _worst(ev, slug)]
     title = f"Results: {ev['label']}" + (" (silver, estimates)" if ev.get("silver") else "")
@@ -310,39 +317,6 @@ def _per_type(bundle, ev, slug: str, primary: str, looks) -> Markup:
               el("h3", None, "By destination type"),
               _figure(chart, f"Bars: mean {primary}; whiskers: 95% bootstrap interval. {how}",
                       table))
-
-
-def _comparison(bundle, ev, slug: str) -> Markup:
-    rows = []
-    alpha = bundle["setup"]["alpha"]
-    for c in ev["comparison"]:
-        key = f"{ev['name']}|{c['run']}|{c['metric']}|{c['type'] or 'all'}"
-        mark = fmt.mark(c["diff"], c["p_corrected"], alpha)
-        rows.append([c["run"], c["metric"], c["type"] or "all", c["n"],
-                     _cell(fmt.signed(c["diff"]), key + "|diff"),
-                     _cell(fmt.interval(c["low"], c["high"])),
-                     _cell(fmt.pvalue(c["p_bootstrap"])),
-                     _cell(fmt.pvalue(c["p_randomisation"])),
-                     _cell(fmt.pvalue(c["p_corrected"]), key + "|p"),
-                     _cell(fmt.num(c.get("effect"), 2)),
-                     _cell(mark, cls=f"mark {_mark_class(mark)}")])
-    table = _table(["system", "metric", "type", "queries", "difference", "95% interval",
-                    "p boot.", "p rand.", "p Holm", "effect", ""], rows,
-                   caption=f"Each system minus the baseline {ev['baseline']}",
-                   numeric=[False, False, False, True, True, True, True, True, True, True,
-                            False], cls="data compact")
-    return el("div", {"class_": "block", "id": f"compare-{slug}"},
-              el("h3", None, "Compared with the baseline"),
-              el("p", {"class_": "legend"}, fmt.MARK_LEGEND, f"; alpha {alpha:g}. "
-                 "p boot.: paired bootstrap; p rand.: paired randomisation (sign-flip) test; "
-                 f"p Holm: the {ev.get('corrected') or 'bootstrap'} p-value with Holm's "
-                 "correction across every row of this table. Effect: standardised mean difference (difference divided by "
-                 "the spread of per-query differences)."),
-              table if rows else el("p", None, "Only one system: nothing to compare."))
-
-
-def _mark_class(mark: str) -> str:
-    return {fmt.BETTER: "up", fmt.WORSE: "down"}.get(mark, "flat")
 
 
 def _misses(ev, slug: str, looks) -> Markup:
@@ -448,7 +422,7 @@ def _agreement(ag: Mapping[str, Any], number: int, looks) -> Markup:
                  f" (95% interval {fmt.interval(tau['low'], tau['high'], 2)}), Spearman's rho ",
                  el("strong", {"data_cell": "agreement|rho"}, fmt.num(rho["value"], 2)),
                  f" (95% interval {fmt.interval(rho['low'], rho['high'], 2)}), over "
-                 f"{len(ag['systems'])} systems; {ag['shared']} queries in both sets.")
+                 f"{len(ag['systems'])} systems; {_shared(ag)}")
     flips = (el("ul", None, *(el("li", None, f"{f['first']} is ahead of {f['second']} under {a} "
                                   f"by {fmt.num(f['diff_a'])} but behind under {b} by "
                                   f"{fmt.num(-f['diff_b'])}") for f in ag["flips"]))
@@ -463,6 +437,30 @@ def _agreement(ag: Mapping[str, Any], number: int, looks) -> Markup:
                     el("h3", None, "Pairs that change order"), flips)
 
 
+def _shared(ag: Mapping[str, Any]) -> str:
+    """What the two sets' queries have in common, in words made from the counts."""
+    if ag["shared"] == 0:
+        return ("the two sets share no query: each system's score comes from each set's "
+                "own queries, and the intervals resample each set's queries independently.")
+    return (f"{ag['shared']} queries are in both sets; the intervals resample them once "
+            "for both sets and the rest of each set independently.")
+
+
+def _silver_vs_human(bundle) -> str:
+    """How silver scores compare with people's here, counted from the figures."""
+    primary = bundle["setup"]["primary"]
+    evs = bundle["evaluations"]
+    silver = next((e for e in evs if e.get("silver")), None)
+    human = next((e for e in evs if not e.get("silver")), None)
+    if silver is None or human is None:
+        return "Whether they run higher or lower than people's is not measured here."
+    s, h = _scores_of(silver, primary, None), _scores_of(human, primary, None)
+    both = [n for n in s if n in h and s[n]["mean"] is not None and h[n]["mean"] is not None]
+    higher = sum(s[n]["mean"] > h[n]["mean"] for n in both)
+    return (f"Here silver {primary} is higher than {human['label']}'s for {higher} of "
+            f"{len(both)} systems.")
+
+
 def _reading_guide(bundle, number: int) -> Markup:
     alpha = bundle["setup"]["alpha"]
     terms = [
@@ -473,11 +471,13 @@ def _reading_guide(bundle, number: int) -> Markup:
         ("interval", "95% percentile bootstrap interval over queries (resampled "
                      f"{bundle['setup']['resamples']} times, seed {bundle['setup']['seed']})."),
         ("p (Holm)", "two-sided p-value of the paired test named in each comparison "
-                     "section, corrected with Holm's method across the rows of its table; "
-                     f"marks use alpha {alpha:g}."),
+                     "section, corrected with Holm's method within its family: the headline "
+                     "family is every system against the baseline on the headline metric "
+                     "over all queries; other metrics and types are exploratory families "
+                     f"of their own; marks use alpha {alpha:g}."),
         ("silver", "judgments made by the tool from the catalogue itself; useful to rank "
-                   "systems, but their absolute values are estimates, and usually higher "
-                   "than people's queries would give, since synthesised queries are easier."),
+                   "systems, but their absolute values are estimates. "
+                   + _silver_vs_human(bundle)),
     ]
     return _section("reading", number, "How to read this report",
                     el("dl", {"class_": "terms"},

@@ -67,6 +67,13 @@ svg .whisker-dark{stroke:var(--ink);stroke-width:1.3}
 svg .bar{stroke:var(--ink);stroke-width:.4}
 svg .diagonal{stroke:var(--muted);stroke-dasharray:5 4}
 .legend{font-size:.82rem;color:var(--muted)}
+svg .margin-band{fill:#1f6f78;fill-opacity:.12}
+svg .zero{stroke:var(--ink);stroke-width:1}
+.decision{border:2px solid var(--accent);background:#fffdf8;padding:.6rem 1rem .4rem;margin:.8rem 0}
+.decision h2{border:none;margin:0 0 .3rem;padding:0}
+.verdict{font:700 1.15rem/1.35 Georgia,"Times New Roman",serif;margin:.2rem 0 .4rem}
+.decision .caution{border-left:5px solid var(--silver);background:#f1efea;padding:.4rem .7rem}
+details{margin:.4rem 0 .8rem}summary{cursor:pointer;color:var(--accent);font-weight:600}
 .headline{font-size:1.05rem}
 .warnings{font-size:.85rem;color:#7a4100}
 .worst q{font-style:italic}.worst .qid{font-size:.75rem;color:var(--muted)}
