@@ -18,6 +18,9 @@ from pathlib import Path
 
 import numpy as np
 
+from .errors import OutputError
+from .files import check_writable
+
 CACHE_FILE = "embeddings.sqlite"
 BUSY_TIMEOUT_MS = 120_000
 MAX_PARAMS = 500  # rows fetched per SELECT ... IN (...)
@@ -31,6 +34,11 @@ def default_cache_dir() -> Path:
     return Path(base).expanduser() / "trawl"
 
 
+def check_cache_dir(folder: str | Path) -> None:
+    """Refuse, before any work, a cache folder that cannot be created or written."""
+    check_writable(folder, "embedding cache folder", folder=True)
+
+
 def text_key(text: str) -> str:
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
@@ -40,17 +48,26 @@ class EmbeddingCache:
 
     def __init__(self, folder: str | Path, fingerprint: str) -> None:
         folder = Path(folder)
-        folder.mkdir(parents=True, exist_ok=True)
         self.path = folder / CACHE_FILE
         self.fingerprint = fingerprint
-        self._db = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_MS / 1000,
-                                   isolation_level=None)
-        self._db.execute(f"PRAGMA busy_timeout={BUSY_TIMEOUT_MS}")
-        self._db.execute("PRAGMA journal_mode=WAL")
-        self._db.execute("PRAGMA synchronous=NORMAL")
-        self._db.execute("CREATE TABLE IF NOT EXISTS vectors (encoder TEXT NOT NULL, "
-                         "text_sha256 TEXT NOT NULL, dim INTEGER NOT NULL, vector BLOB NOT NULL, "
-                         "PRIMARY KEY (encoder, text_sha256)) WITHOUT ROWID")
+        check_cache_dir(folder)
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+            self._db = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_MS / 1000,
+                                       isolation_level=None)
+            self._db.execute(f"PRAGMA busy_timeout={BUSY_TIMEOUT_MS}")
+            self._db.execute("PRAGMA journal_mode=WAL")
+            self._db.execute("PRAGMA synchronous=NORMAL")
+            self._db.execute("CREATE TABLE IF NOT EXISTS vectors (encoder TEXT NOT NULL, "
+                             "text_sha256 TEXT NOT NULL, dim INTEGER NOT NULL, "
+                             "vector BLOB NOT NULL, PRIMARY KEY (encoder, text_sha256)) "
+                             "WITHOUT ROWID")
+        except (OSError, sqlite3.Error) as exc:
+            raise self._unusable(exc) from None
+
+    def _unusable(self, exc: BaseException) -> OutputError:
+        return OutputError(f"embedding cache {self.path} cannot be used ({exc}); delete that "
+                           "file or use another cache folder")
 
     def get(self, keys: Iterable[str]) -> dict[str, np.ndarray]:
         keys = list(dict.fromkeys(keys))
@@ -67,11 +84,17 @@ class EmbeddingCache:
     def put(self, keys: Sequence[str], vectors: np.ndarray) -> None:
         """Store one batch atomically."""
         vectors = np.ascontiguousarray(vectors, dtype=np.float32)
-        with self._transaction():
-            self._db.executemany(
-                "INSERT OR IGNORE INTO vectors (encoder, text_sha256, dim, vector) "
-                "VALUES (?, ?, ?, ?)",
-                [(self.fingerprint, k, v.shape[0], v.tobytes()) for k, v in zip(keys, vectors)])
+        try:
+            with self._transaction():
+                self._db.executemany(
+                    "INSERT OR IGNORE INTO vectors (encoder, text_sha256, dim, vector) "
+                    "VALUES (?, ?, ?, ?)",
+                    [(self.fingerprint, k, v.shape[0], v.tobytes())
+                     for k, v in zip(keys, vectors)])
+        except sqlite3.OperationalError as exc:
+            if "locked" in str(exc) or "busy" in str(exc):
+                raise
+            raise self._unusable(exc) from None
 
     @contextlib.contextmanager
     def _transaction(self) -> Iterator[None]:

@@ -34,6 +34,11 @@ class UsageError(TrawlError):
     """Options or arguments conflict or are out of range."""
 
 
+class OutputError(TrawlError):
+    """A file or folder trawl must write cannot be written; the message names the path
+    and what to do."""
+
+
 class StaleIndexError(TrawlError):
     """An index no longer matches the catalogue it was built from."""
 

@@ -13,16 +13,22 @@ from collections.abc import Iterator
 from pathlib import Path
 from typing import IO
 
-from .errors import InputError
+from .errors import InputError, OutputError
 
 
 @contextlib.contextmanager
 def atomic_write(path: str | Path, mode: str = "w", encoding: str | None = "utf-8",
                  newline: str | None = "\n") -> Iterator[IO]:
-    """Open a temp file beside ``path``; rename it over ``path`` only if the block succeeds."""
+    """Open a temp file beside ``path``; rename it over ``path`` only if the block succeeds.
+    A path that cannot be written is an ``OutputError`` naming it, never a traceback."""
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    check_writable(path, "file")
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    except OSError as exc:
+        raise OutputError(f"cannot write {path}: {exc.strerror or exc}; choose a folder you "
+                          "can write to") from None
     os.fchmod(fd, 0o666 & ~_umask())  # mkstemp makes 0600; outputs are shared like any file
     binary = "b" in mode
     try:
@@ -31,11 +37,35 @@ def atomic_write(path: str | Path, mode: str = "w", encoding: str | None = "utf-
             yield fh
             fh.flush()
             os.fsync(fh.fileno())
-        os.replace(tmp, path)
+        try:
+            os.replace(tmp, path)
+        except OSError as exc:
+            raise OutputError(f"cannot write {path}: {exc.strerror or exc}; choose another "
+                              "path") from None
     except BaseException:
         with contextlib.suppress(FileNotFoundError):
             os.unlink(tmp)
         raise
+
+
+def check_writable(path: str | Path, what: str, folder: bool = False) -> None:
+    """Refuse, before any work, a ``path`` that cannot become a file (or, with ``folder``,
+    a folder): one under an existing file, a folder where a file should go (or the
+    reverse), or a place without write permission."""
+    path = Path(path)
+    if path.exists() and path.is_dir() != folder:
+        kind = "a folder" if path.is_dir() else "a file"
+        raise OutputError(f"cannot write {what} {path}: it is {kind}; give "
+                          f"{'a folder' if folder else 'a file name'} there instead")
+    parent = path if folder and path.exists() else path.parent
+    while not parent.exists() and parent != parent.parent:
+        parent = parent.parent
+    if not parent.is_dir():
+        raise OutputError(f"cannot write {what} {path}: {parent} is a file, not a folder; "
+                          "choose a path that is not inside a file")
+    if not os.access(parent, os.W_OK | os.X_OK):
+        raise OutputError(f"cannot write {what} {path}: no permission to write in {parent}; "
+                          "choose a folder you can write to")
 
 
 def _umask() -> int:

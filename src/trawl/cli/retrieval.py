@@ -142,8 +142,11 @@ def search(index: str, queries: str, output: str, results: int, catalogue: str |
     from ..index import open_recorded
     from ..latency import measure_search, write_latency
     from ..queries import read_queries
+    from ..files import check_writable
     from ..runs import name_from_path, write_run
 
+    check_writable(output, "run file")  # before the search, not after it
+    check_writable(f"{output}.latency.json", "latency file")
     idx, gone = open_recorded(index, catalogue)
     if gone is not None:
         echo_err([f"warning: {gone} (the catalogue this index was built from) is gone; "

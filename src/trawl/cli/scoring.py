@@ -70,6 +70,7 @@ def score(qrels: str, runs: tuple[str, ...], names: tuple[str, ...], catalogue: 
       trawl score qrels/quillfern-gold.qrels minilm.run bm25.run -c corpora/quillfern.jsonl
       trawl score silver.qrels minilm.run -m ndcg@10 -m hit@1 --per-query scores.csv
     """
+    from ..files import check_writable
     from ..inputs import read_scoring_inputs
     from ..pipeline.outputs import SCORE_COLUMNS, per_query_columns, write_rows
     from ..scores import score_runs
@@ -78,6 +79,9 @@ def score(qrels: str, runs: tuple[str, ...], names: tuple[str, ...], catalogue: 
     ms = _metrics(metrics)
     reject([(per_query_path is not None and not per_query_path.endswith((".csv", ".json")),
              f"--per-query {per_query_path}: name a .csv or .json file")])
+    for path, what in ((per_query_path, "per-query table"), (csv_path, "score table")):
+        if path is not None:
+            check_writable(path, what)  # before scoring
     got = read_scoring_inputs(qrels, runs, names, catalogue, partial_overlap)
     report = score_runs(got.qrels, list(got.runs), ms, got.catalogue, resamples=resamples,
                         seed=seed)

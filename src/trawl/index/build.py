@@ -25,10 +25,10 @@ from typing import Any
 import numpy as np
 
 from ..catalogue import Catalogue
-from ..embedcache import EmbeddingCache, default_cache_dir, text_key
+from ..embedcache import EmbeddingCache, check_cache_dir, default_cache_dir, text_key
 from ..engines import Engine, LocalEngine
 from ..errors import TrawlError, UsageError
-from ..files import atomic_write
+from ..files import atomic_write, check_writable
 from ..progress import progress
 from ..retrievers.loading import EncoderLoader, default_loader
 from ..retrievers.spec import EncoderSpec, as_spec
@@ -83,6 +83,11 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
     loader = loader or default_loader()
     engine = engine or LocalEngine()
     cache_root = Path(cache_dir) if cache_dir is not None else default_cache_dir()
+    # where the index and the cache go must be writable before any work
+    check_writable(out, "index folder", folder=True)
+    check_writable(out.parent, "folder holding the index", folder=True)
+    if not enc_spec.lexical:
+        check_cache_dir(cache_root)
     with _build_lock(out):
         with swap_lock(out, shared=False):
             _recover_leftovers(out)

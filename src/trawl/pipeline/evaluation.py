@@ -13,8 +13,9 @@ from typing import Any
 from .. import __version__
 from ..catalogue import Catalogue, load_catalogue
 from ..decision import Limits
+from ..embedcache import check_cache_dir, default_cache_dir
 from ..errors import UsageError
-from ..files import write_text_atomic
+from ..files import check_writable, write_text_atomic
 from ..latency import check_threads
 from ..metrics import DEFAULT_METRICS, parse_metrics
 from ..privacy import KINDS as PRIVACY_KINDS
@@ -109,6 +110,9 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
     plan = _Plan(systems, baseline, metric_names, min(k, len(cat)), resamples, seed, alpha,
                  retime, threads, quiet, scrub_queries, notify or (lambda _msg: None),
                  checked_limits(limits, metric_names[0]))
+    check_writable(out, "output folder", folder=True)
+    if any(s.spec is not None and not s.spec.lexical for s in systems):
+        check_cache_dir(Path(cache_dir) if cache_dir is not None else default_cache_dir())
     clear_leftovers(out)
     indexes = _index_systems(plan, cat, out, ann,
                              Path(cache_dir) if cache_dir is not None else None)
