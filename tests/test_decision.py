@@ -67,11 +67,34 @@ def test_runs_that_cannot_be_told_apart_say_so_with_a_sample_size():
     pair = d.pairs[0]
     assert d.verdict == CANT_TELL and not pair.separated
     assert pair.low < 0 < pair.high
-    needed = queries_needed(abs(pair.diff), pair.sd, 0.05)
+    needed = queries_needed(max(abs(pair.diff), 0.01), pair.sd, 0.05)
     assert d.queries_needed == needed and needed > 40
     assert d.headline.startswith(f"can't tell {d.leader} from ")
     assert f"judge about {needed} queries in all ({needed - 40} more) to separate them" \
         in d.headline
+
+
+def test_a_near_tie_ships_the_cheaper_and_names_an_open_question():
+    rng = np.random.default_rng(4)
+    a = rng.uniform(0, 1, 60)
+    def noise(sd):  # centred, so the mean differences are exactly as written
+        e = rng.normal(0, sd, 60)
+        return e - e.mean()
+
+    b = a - 0.0005 + noise(0.004)  # within the margin but slower: ship a
+    c = a - 0.008 + noise(0.05)  # cheapest, but is it within the margin?
+    d = decide([SystemFigures("a", 4, 6, 10), SystemFigures("b", 6, 9, 10)], [a, b],
+               resamples=2000)
+    assert d.pairs[0].non_inferior == YES and d.recommended == "a" and d.verdict == "ship"
+    d = decide([SystemFigures("a", 4, 6, 10), SystemFigures("b", 6, 9, 10),
+                SystemFigures("c", 1, 2, 10)], [a, b, c], resamples=2000)
+    pair = {p.candidate: p for p in d.pairs}["c"]
+    assert pair.non_inferior == CANT_TELL and d.verdict == CANT_TELL
+    assert d.headline == (
+        f"can't tell whether c is within 0.01 ndcg@10 of a with 60 queries (difference "
+        f"{pair.diff:+.3f}, 95% interval {pair.low:+.3f} to {pair.high:+.3f}); judge about "
+        f"{pair.queries_to_confirm} queries in all ({pair.queries_to_confirm - 60} more) to "
+        "confirm it; until then ship a")
 
 
 def test_silver_verdicts_are_provisional_and_propose_a_review_sample():

@@ -60,6 +60,16 @@ def test_the_summary_starts_with_the_decision_in_at_most_six_lines():
                          f"review.csv --sample {b['decision']['review_sample']}")
 
 
+def test_per_type_counts_add_up_by_a_stated_tally():
+    from trawl.destinations import type_tally
+
+    # by hand: q1 one type, q2 two types, q3 one type, two of five queries untyped
+    types = {"q1": ("faq",), "q2": ("faq", "screen"), "q3": ("form",)}
+    assert type_tally(types, 5) == ("the per-type rows count 4 queries: 3 of the 5 judged "
+                                    "queries have a type, 1 of them counts toward more than "
+                                    "one (+1), and 2 toward none")
+
+
 def _boxes(svg: ET.Element) -> list[tuple[float, float, float, float, str]]:
     """Text boxes (left, top, right, bottom) from the SVG as emitted: width from a fixed
     character width (charts.CHAR_PX at charts.FONT_PX, scaled by the class's font size)."""

@@ -177,10 +177,12 @@ def _costs(c: Candidate) -> tuple[float | None, ...]:
 
 def dominates(a: Candidate, b: Candidate) -> bool:
     """``a`` is at least as good as ``b`` on quality and every cost both have measured,
-    and better on one of them."""
-    pairs = [(-a.quality, -b.quality)] + [(x, y) for x, y in zip(_costs(a), _costs(b))
-                                          if x is not None and y is not None]
-    return all(x <= y for x, y in pairs) and any(x < y for x, y in pairs)
+    and better on one of them. Costs within ``SAME_SIZE`` (5%) of each other count as
+    equal: a few hundred bytes or a timing jitter do not make a system dominated."""
+    costs = [(x, y) for x, y in zip(_costs(a), _costs(b)) if x is not None and y is not None]
+    if a.quality < b.quality or any(x > y * (1 + SAME_SIZE) for x, y in costs):
+        return False
+    return a.quality > b.quality or any(x < y * (1 - SAME_SIZE) for x, y in costs)
 
 
 def _candidates(systems: Sequence[SystemFigures], quality: np.ndarray,
@@ -247,7 +249,8 @@ def _pairs(names: Sequence[str], scores: np.ndarray, leader: int, others: Sequen
         ok_sd = sd if math.isfinite(sd) else 0.0
         out.append(PairFigures(
             names[j], names[leader], n, mean, ok_sd, low, high, separated, verdict,
-            queries_needed(abs(mean), ok_sd, alpha, power, sides=2),
+            # differences below the margin do not matter: size for at least the margin
+            queries_needed(max(abs(mean), margin), ok_sd, alpha, power, sides=2),
             # one-sided at alpha/2: z_(1-alpha/2), as for the two-sided separation
             queries_needed(mean + margin, ok_sd, alpha, power, sides=2)))
     return out
@@ -306,57 +309,87 @@ METHOD = ("non-inferiority: lower end of the paired bootstrap interval (one-side
           "correction), power 0.8")
 
 
+def _cost(c: Candidate) -> tuple[float, float]:
+    return (c.p95_ms if c.p95_ms is not None else math.inf,
+            c.index_bytes if c.index_bytes is not None else math.inf)
+
+
 def _verdict(cands: Sequence[Candidate], lead: int, pairs: Sequence[PairFigures],
              limits: Limits, alpha: float) -> tuple[str, str, str, str, int | None]:
     """(verdict, recommended, headline, evidence, queries needed) for the pairs against
-    the leader."""
+    the leader: the cheapest of the leader and the systems non-inferior to it is shipped,
+    unless a still cheaper system might be good enough too ("can't tell"), or the leader
+    and the runner-up cost the same and cannot be told apart."""
     by = {c.name: c for c in cands}
-    leader = cands[lead]
-    n = pairs[0].n if pairs else 0
-    metric = limits.headline or DEFAULT_HEADLINE
-    cheap_ok = sorted((p for p in pairs if p.non_inferior == YES
-                       and _cheaper(by[p.candidate], leader)),
-                      key=lambda p: (by[p.candidate].p95_ms or math.inf,
-                                     by[p.candidate].index_bytes or math.inf))
-    if cheap_ok:
-        p = cheap_ok[0]
-        head = (f"ship {p.candidate}: not worse than {leader.name} by more than "
-                f"{limits.margin:g} {metric} ({_diff(p, alpha)}), {_costs_vs(by[p.candidate], leader)}")
-        return "ship", p.candidate, head, (
-            f"{n} judged queries confirm it (about {p.queries_to_confirm} would, 8 times "
-            f"in 10)"), p.queries_to_confirm
+    leader, m = cands[lead], limits.margin
     if not pairs:
         return "ship", leader.name, (f"ship {leader.name}: the only system within the "
-                                     f"limits ({metric} {leader.quality:.3f})"), "", None
+                                     f"limits ({_metric(limits)} {leader.quality:.3f})"), "", None
+    n = pairs[0].n
+    fine = [p for p in pairs if p.non_inferior == YES]
+    chosen = min([leader] + [by[p.candidate] for p in fine], key=_cost)
+    open_ = sorted((p for p in pairs if p.non_inferior == CANT_TELL
+                    and p.queries_to_confirm is not None and _cheaper(by[p.candidate], chosen)),
+                   key=lambda p: _cost(by[p.candidate]))
+    if open_:
+        p = open_[0]
+        head = (f"can't tell whether {p.candidate} is within {m:g} {_metric(limits)} of "
+                f"{leader.name} with {n} queries ({_diff(p, alpha)}); "
+                f"{_judge(p.queries_to_confirm, n)} to confirm it; until then ship "
+                f"{chosen.name}")
+        return CANT_TELL, chosen.name, head, _evidence(p, p.queries_to_confirm,
+                                                       "confirm it"), p.queries_to_confirm
+    if chosen is not leader:
+        p = next(p for p in fine if p.candidate == chosen.name)
+        head = (f"ship {chosen.name}: not worse than {leader.name} by more than {m:g} "
+                f"{_metric(limits)} ({_diff(p, alpha)}), {_costs_vs(chosen, leader)}")
+        return "ship", chosen.name, head, (f"{n} judged queries confirm it (about "
+                                           f"{p.queries_to_confirm} would, 8 times in 10)"
+                                           ), p.queries_to_confirm
     runner = pairs[0]
+    rival = by[runner.candidate]
     if runner.separated:
-        head = (f"ship {leader.name}: best {metric} {leader.quality:.3f}, ahead of "
+        head = (f"ship {leader.name}: best {_metric(limits)} {leader.quality:.3f}, ahead of "
                 f"{runner.candidate} ({_diff(runner, alpha)})")
-        worse = [p.candidate for p in pairs if p.non_inferior == NO
-                 and _cheaper(by[p.candidate], leader)]
-        tail = (f"; cheaper {', '.join(worse)} lose more than {limits.margin:g}"
-                if worse else "")
-        return "ship", leader.name, head + tail, (
-            f"{n} judged queries separate them"), runner.queries_to_separate
-    cheaper = _cheaper(by[runner.candidate], leader)
-    confirm = cheaper and runner.queries_to_confirm is not None
-    needed = runner.queries_to_confirm if confirm else runner.queries_to_separate
-    goal = (f"confirm {runner.candidate} is not worse by more than {limits.margin:g}"
-            if confirm else f"separate them")
-    more = "" if needed is None else (
-        f"; judge about {needed} queries in all ({max(needed - n, 0)} more) to {goal}")
+        return "ship", leader.name, head, f"{n} judged queries separate them", \
+            runner.queries_to_separate
+    if _cheaper(leader, rival):
+        head = (f"ship {leader.name}: best {_metric(limits)} {leader.quality:.3f} and "
+                f"cheaper than the runner-up {runner.candidate} ({_diff(runner, alpha)})")
+        return "ship", leader.name, head, (f"{n} judged queries; the two are not told apart, "
+                                           "but the runner-up costs more"), None
+    needed = runner.queries_to_separate
     head = (f"can't tell {leader.name} from {runner.candidate} with {n} queries "
-            f"({_diff(runner, alpha)}){more}")
-    evidence = ("no difference to detect: the two score the same on every query"
-                if needed is None else f"{needed} judged queries would {goal} 8 times in 10")
-    return CANT_TELL, leader.name, head, evidence, needed
+            f"({_diff(runner, alpha)}); {_judge(needed, n)} to separate them")
+    return CANT_TELL, leader.name, head, _evidence(runner, needed, "separate them"), needed
+
+
+def _metric(limits: Limits) -> str:
+    return limits.headline or DEFAULT_HEADLINE
+
+
+def _judge(needed: int | None, n: int) -> str:
+    if needed is None:
+        return "no number of judged queries would change that"
+    return f"judge about {needed} queries in all ({max(needed - n, 0)} more)"
+
+
+def _evidence(p: PairFigures, needed: int | None, goal: str) -> str:
+    if needed is None:
+        return "no difference to detect: the two score the same on every query"
+    return (f"sd of the per-query differences {p.sd:.3f}; {needed} judged queries would "
+            f"{goal} 8 times in 10")
+
+
+def _signed(v: float) -> str:
+    return "0.000" if abs(v) < 0.0005 else f"{v:+.3f}"
 
 
 def _diff(p: PairFigures, alpha: float) -> str:
     if p.low is None:
-        return f"difference {p.diff:+.3f}, {MIN_QUERIES}+ queries needed for an interval"
-    return (f"difference {p.diff:+.3f}, {1 - alpha:.0%} interval {p.low:+.3f} to "
-            f"{p.high:+.3f}")
+        return f"difference {_signed(p.diff)}, {MIN_QUERIES}+ queries needed for an interval"
+    return (f"difference {_signed(p.diff)}, {1 - alpha:.0%} interval {_signed(p.low)} to "
+            f"{_signed(p.high)}")
 
 
 def _costs_vs(c: Candidate, ref: Candidate) -> str:

@@ -63,6 +63,17 @@ def query_types(qrels: Qrels, catalogue: Catalogue
     return types, warnings
 
 
+def type_tally(types: Mapping[str, tuple[str, ...]], queries: int) -> str:
+    """How the per-type query counts add up to ``queries``, counted from the assignment:
+    queries toward more than one type count again in each, untyped ones in none."""
+    extra = sum(len(t) - 1 for t in types.values())
+    several = sum(len(t) > 1 for t in types.values())
+    return (f"the per-type rows count {len(types) + extra} queries: {len(types)} of the "
+            f"{queries} judged queries have a type, {several} of them "
+            f"{'counts' if several == 1 else 'count'} toward more than one (+{extra}), and "
+            f"{queries - len(types)} toward none")
+
+
 def type_members(qids: Sequence[str], types: Mapping[str, tuple[str, ...]]
                  ) -> dict[str, np.ndarray]:
     """Row indices of the queries counting toward each type, types in name order."""

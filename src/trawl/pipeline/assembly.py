@@ -53,7 +53,7 @@ def evaluation_entry(ld: LoadedSet, names: Sequence[str], baseline: str,
                      misses) -> Evaluation:
     """Every figure of one judgment set; ``judged_by`` is filled in once the agreement
     between sets is known."""
-    from ..destinations import TYPE_RULE
+    from ..destinations import TYPE_RULE, type_tally
 
     js = ld.spec
     warnings = list(dict.fromkeys(
@@ -73,7 +73,9 @@ def evaluation_entry(ld: LoadedSet, names: Sequence[str], baseline: str,
         judgments=sum(len(v) for v in ld.qrels.values()), baseline=baseline,
         latency={n: latency_entry(latency[n]) for n in names},
         corrected=corrected_test(comparison), miss_headline=base_misses.headline,
-        type_rule=TYPE_RULE[0].upper() + TYPE_RULE[1:] + ".", warnings=tuple(warnings),
+        type_rule=(TYPE_RULE[0].upper() + TYPE_RULE[1:] + "; "
+                   + type_tally(scores.types, len(ld.qrels)) + "."),
+        warnings=tuple(warnings),
         judged_by="", **tables)
 
 

@@ -165,21 +165,7 @@ def _exploratory(bundle, ev, alpha: float) -> Markup | None:
                    numeric=[False, False, False, True, True, True, True, False],
                    caption="Exploratory: each (metric, type) is its own Holm family, not "
                            "corrected across metrics and types, so read these as leads, not "
-                           "findings. " + (type_tally(ev) if typed else ""))
+                           "findings. " + (ev.get("type_rule", "") if typed else ""))
     what = "other metrics and destination types" if typed else "other metrics"
     return el("details", None, el("summary", None, f"Every comparison on {what} ({len(rows)} "
                                                     "rows, exploratory)"), table)
-
-
-def type_tally(ev: Mapping[str, Any]) -> str:
-    """How the per-type query counts add up against the judged queries, from the figures."""
-    primary_run = ev["baseline"]
-    counts = [s["n"] for s in ev["scores"] if s["run"] == primary_run and s["type"] is not None
-              and s["metric"] == ev["scores"][0]["metric"]]
-    total, queries = sum(counts), ev["queries"]
-    if total == queries:
-        return f"The per-type rows count {total} queries, each of the {queries} once."
-    return (f"The per-type rows count {total} queries for {queries} judged queries: a query "
-            "whose best items have several types counts toward each, and one with no "
-            "relevant judged item toward none.")
-
