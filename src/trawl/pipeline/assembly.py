@@ -19,8 +19,8 @@ from .searching import Searched
 from .sets import LoadedSet
 from .systems import System, quantised
 
-VERSIONED_PACKAGES = ("numpy", "torch", "sentence-transformers", "faiss-cpu", "bm25s",
-                      "model2vec", "scipy")
+VERSIONED_PACKAGES = ("numpy", "torch", "sentence-transformers", "onnxruntime", "faiss-cpu",
+                      "bm25s", "model2vec", "scipy")
 LATENCY_FIELDS = ("p50_ms", "p95_ms", "p99_ms", "mean_ms")
 
 
