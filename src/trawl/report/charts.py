@@ -112,7 +112,7 @@ def log_ticks(lo: float, hi: float) -> list[float]:
 
 
 def tick_label(v: float) -> str:
-    return f"{v:g}"
+    return f"{v + 0.0:g}"  # + 0.0 turns -0.0 into 0
 
 
 def _frame(width: int, height: int, title: str, desc: str, chart_id: str,

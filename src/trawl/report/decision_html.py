@@ -37,7 +37,7 @@ def decision_section(bundle: Mapping[str, Any], looks: Mapping[str, Look]) -> Ma
                      ": ", el("code", None, command))
     rows = [_candidate_row(c, d, looks) for c in d["candidates"]]
     table = _table(["system", d["metric"], "vs leader", f"{1 - d['alpha']:.0%} interval",
-                    f"not worse by > {d['margin']:g}", "p95 ms", "index", "build s", "status"],
+                    f"within {d['margin']:g}", "p95 ms", "index", "build s", "status"],
                    rows, caption=_caption(d), cls="data compact")
     return el("section", {"id": "decision", "class_": "decision",
                           "aria_labelledby": "decision-h"},
@@ -56,8 +56,9 @@ def _caption(d: Mapping[str, Any]) -> str:
     return (f"Rests on {d['judgment_set']} ({d['queries']} queries), {d['metric']}, margin "
             f"{d['margin']:g}; {asked}. Not worse: the lower end of the paired bootstrap "
             f"interval ({d['resamples']} resamples, seed {d['seed']}) lies above "
-            f"-{d['margin']:g}. Status 'dominated': another system is at least as good on "
-            "quality, latency, size and build time, and better on one.")
+            f"-{d['margin']:g}. Build s: the index's last build, with embeddings already in "
+            "the cache counted as free. Status 'dominated': another system is at least as "
+            "good on quality, latency, size and build time, and better on one.")
 
 
 def _candidate_row(c: Mapping[str, Any], d: Mapping[str, Any],
@@ -109,8 +110,10 @@ def _headline_figure(ev, slug: str, primary: str, alpha: float, margin: float,
     chart = difference_intervals(diffs, primary, margin, f"chart-diff-{slug}", title)
     table = _table(["system", "difference", f"{1 - alpha:.0%} interval", "p Holm", "mark"],
                    [_row(ev, c, alpha) for c in rows],
-                   caption=f"Figures behind the chart (headline family: Holm-corrected over "
-                           f"these {len(rows)} comparisons only)", cls="data compact")
+                   caption=f"Figures behind the chart. p Holm: corrected over these "
+                           f"{len(rows)} comparisons (the headline family) only; the intervals "
+                           "are per comparison, not adjusted, so one may exclude 0 while the "
+                           "corrected p stays above alpha.", cls="data compact")
     return _figure(chart, f"Dot: mean difference over {rows[0]['n']} queries; line: "
                           f"{1 - alpha:.0%} paired bootstrap interval; shaded band: "
                           f"within the margin of {margin:g}, the loss the decision accepts. "

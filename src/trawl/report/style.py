@@ -40,7 +40,8 @@ table.data{border-collapse:collapse;font-size:.86rem;font-variant-numeric:tabula
 table.data caption{text-align:left;font-size:.8rem;color:var(--muted);padding-bottom:.25rem}
 table.data th,table.data td{padding:.22rem .6rem;border-bottom:1px solid var(--rule);
 text-align:left;vertical-align:top}
-table.data thead th{border-bottom:2px solid var(--ink);font-weight:600}
+table.data thead th{border-bottom:2px solid var(--ink);font-weight:600;white-space:normal;
+overflow-wrap:anywhere}
 table.data tbody th{font-weight:500}
 .num{text-align:right!important;white-space:nowrap}
 .compact td,.compact th{padding:.15rem .45rem}

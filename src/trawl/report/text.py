@@ -462,7 +462,8 @@ def summary(bundle: Mapping[str, Any]) -> str:
                      f"({fmt.interval(ag['tau']['low'], ag['tau']['high'], 2)}), "
                      f"Spearman's rho {fmt.num(ag['rho']['value'], 2)}; "
                      f"{len(ag['flips'])} pair(s) of systems change order")
-    lines.append(f"{fmt.MARK_LEGEND}; alpha {bundle['setup']['alpha']:g}, Holm-corrected")
+    lines.append(f"{fmt.MARK_LEGEND}; alpha {bundle['setup']['alpha']:g}, Holm-corrected over "
+                 f"the systems compared with the baseline on {bundle['setup']['primary']}")
     return "\n".join(lines)
 
 
