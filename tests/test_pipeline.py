@@ -149,7 +149,7 @@ def test_report_figures_equal_the_json_tables(evaluated):
         key = f"judgments|{s['run']}|ndcg@10|{s['type'] or 'all'}"
         assert cells[key] == fmt.num(s["mean"]), key
         if s["type"] is None:
-            assert cells[key + "|interval"] == fmt.interval(s["low"], s["high"])
+            assert cells[key + "|interval"] == fmt.interval_of(s)
         checked += 1
     assert checked == len(SYSTEMS) * 5  # all queries + 4 destination types
     comparison = json.loads((out / "judgments/comparison.json").read_text())

@@ -7,6 +7,8 @@ report test can recompute what a cell must say from the JSON tables.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
+from typing import Any
 
 MISSING = "–"
 
@@ -28,6 +30,13 @@ def interval(low: float | None, high: float | None, digits: int = 3) -> str:
     if _missing(low) or _missing(high):
         return MISSING
     return f"{low:.{digits}f} to {high:.{digits}f}"
+
+
+def interval_of(row: Mapping[str, Any], digits: int = 3) -> str:
+    """A table row's interval, or why it has none (its ``note``, e.g. "too few queries")."""
+    if row.get("note") and (_missing(row.get("low")) or _missing(row.get("high"))):
+        return str(row["note"])
+    return interval(row.get("low"), row.get("high"), digits)
 
 
 def pvalue(p: float | None) -> str:

@@ -260,7 +260,7 @@ def _quality_latency(bundle, ev, slug: str, primary: str, looks) -> Markup:
                                 _or(sc["high"], sc["mean"]), looks[name]))
         key = f"{ev['name']}|{name}|{primary}|all"
         rows.append([_swatch(name, looks), _cell(fmt.num(sc["mean"]), key),
-                     _cell(fmt.interval(sc["low"], sc["high"]), key + "|interval"),
+                     _cell(fmt.interval_of(sc), key + "|interval"),
                      _cell(fmt.ms(lat.get("p50_ms"))), _cell(fmt.ms(lat.get("p95_ms"))),
                      _cell(fmt.ms(lat.get("p99_ms"))), _cell(fmt.num(lat.get("queries_per_s"), 0)),
                      _cell(fmt.size(systems.get(name, {}).get("index_bytes")))])

@@ -80,7 +80,7 @@ def scores(d: Mapping[str, Any]) -> str:
     def cell(s: Mapping[str, Any]) -> str:
         if not has_ci:
             return fmt.num(s["mean"])
-        return f"{fmt.num(s['mean'])} ({fmt.interval(s['low'], s['high'])})"
+        return f"{fmt.num(s['mean'])} ({fmt.interval_of(s)})"
 
     by_key = {(s["run"], s["metric"], s["type"]): s for s in rows}
     groups = {s["type"]: s["n"] for s in rows}
@@ -145,7 +145,7 @@ def comparison(d: Mapping[str, Any], long: bool = False) -> str:
            f"randomisation test"]
     if long:
         body = [["all" if r["type"] is None else r["type"], r["n"], r["run"], r["metric"],
-                 fmt.signed(r["diff"]), fmt.interval(r["low"], r["high"]),
+                 fmt.signed(r["diff"]), fmt.interval_of(r),
                  fmt.pvalue(r["p_bootstrap"]), fmt.pvalue(r["p_randomisation"]),
                  fmt.pvalue(r["p_corrected"]), fmt.num(r["effect"], 2),
                  fmt.mark(r["diff"], r["p_corrected"], alpha)] for r in rows]
@@ -397,13 +397,16 @@ def _evaluation_lines(ev: Mapping[str, Any], bundle: Mapping[str, Any]) -> list[
             vs = f"{fmt.signed(c['diff'])} {fmt.mark(c['diff'], c['p_corrected'], alpha)}"
         else:
             vs = fmt.MISSING
-        rows.append([name, fmt.num(sc["mean"]), fmt.interval(sc["low"], sc["high"]), vs,
+        rows.append([name, fmt.num(sc["mean"]), fmt.interval_of(sc), vs,
                      fmt.ms(lat.get("p50_ms")), fmt.size(sizes.get(name))])
     table = text_table(["system", primary, "95% interval", f"vs {ev['baseline']}",
                         "p50 ms", "index"], rows, "lrrrrr")
     lines += ["  " + line for line in table.splitlines()]
     if ev.get("miss_headline"):
         lines.append(f"  misses: {ev['miss_headline']}")
+    # the warnings results.json and the report carry (judged items missing from the
+    # catalogue, queries only in a run, too few queries) are printed too
+    lines += ["  " + w for w in warning_lines(ev.get("warnings", ())) if w]
     return lines + [""]
 
 
