@@ -72,6 +72,10 @@ def test_runs_that_cannot_be_told_apart_say_so_with_a_sample_size():
     assert d.headline.startswith(f"can't tell {d.leader} from ")
     assert f"judge about {needed} queries in all ({needed - 40} more) to separate them" \
         in d.headline
+    silver = decide(systems, [a, b], resamples=2000, silver=True)
+    assert silver.review_sample == 40  # the whole set, and the caution says it is too few
+    assert silver.caution.endswith(f"(all 40 queries of the set; {needed} would be needed, "
+                                   "so synthesise more)")
 
 
 def test_a_near_tie_ships_the_cheaper_and_names_an_open_question():

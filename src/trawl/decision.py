@@ -294,13 +294,15 @@ def decide(systems: Sequence[SystemFigures], scores: np.ndarray | Sequence[Seque
     lead = fits[0]
     pairs = _pairs(names, scores, lead, fits[1:], limits.margin, resamples, seed, alpha, power)
     verdict, chosen, headline, evidence, needed = _verdict(cands, lead, pairs, limits, alpha)
-    review = None
+    review, caution = None, None
     if silver:
         review = min(max(needed or MIN_QUERIES, MIN_QUERIES), int(scores.shape[1]))
+        caution = SILVER_CAUTION + (
+            f" (all {review} queries of the set; {needed} would be needed, so synthesise "
+            "more)" if needed and needed > review else "")
     return Decision(**base, pairs=tuple(pairs), leader=names[lead], recommended=chosen,
                     verdict=verdict, headline=headline, evidence=evidence,
-                    queries_needed=needed, review_sample=review,
-                    caution=SILVER_CAUTION if silver else None)
+                    queries_needed=needed, review_sample=review, caution=caution)
 
 
 METHOD = ("non-inferiority: lower end of the paired bootstrap interval (one-sided at "

@@ -140,7 +140,7 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, names: tupl
     """
     from ..compare import CSV_COLUMNS, compare_runs
     from ..decision import decide_runs
-    from ..silver import is_silver
+    from ..silver import SilverFiles, is_silver
     from ..inputs import read_scoring_inputs
     from ..tables import write_csv
 
@@ -160,7 +160,10 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, names: tupl
     if csv_path is not None:
         write_csv(csv_path, [r.as_dict() for r in comp.rows], CSV_COLUMNS)
     both = SimpleNamespace(as_dict=lambda: {**comp.as_dict(), "decision": verdict.as_dict()})
-    _show(qrels, silver, both, as_json, lambda d: text.decision(d["decision"], qrels=qrels)
+    beside = SilverFiles.at(qrels.removesuffix(".qrels")).queries  # a silver set's queries
+    review = {"qrels": qrels, "queries": str(beside) if beside.is_file() else "QUERIES",
+              "catalogue": catalogue or "CATALOGUE"}
+    _show(qrels, silver, both, as_json, lambda d: text.decision(d["decision"], **review)
           + "\n\n" + text.comparison(d, long_table))
 
 
