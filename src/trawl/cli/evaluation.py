@@ -7,8 +7,9 @@ import click
 from ..report import text
 from . import (cache_dir_option, emit_json, in_file, json_option, main, metrics_option,
                no_scrub_option, out_option, quiet_option, resamples_option, results_option,
-               retime_option, seed_option, step, template_option, threads_option)
+               reject, retime_option, seed_option, step, template_option, threads_option)
 from .limits import limits_from, limits_options
+from .retrieval import engine_conflicts, engine_options
 
 resamples = resamples_option(10000, 1, "Bootstrap and randomisation resamples. Default "
                                        "10,000, as in compare: p-values near the "
@@ -49,6 +50,7 @@ def _finish(result, as_json: bool) -> None:
                    "unknown' (never called human); human: people judged them, say so.")
 @click.option("--ann", type=click.Choice(["exact", "hnsw"]), default="exact",
               show_default=True, help="Dense search: exact, or an HNSW graph.")
+@engine_options
 @cache_dir_option
 @template_option
 @click.option("--title", default=None, help="Title of the report.")
@@ -61,7 +63,8 @@ def _finish(result, as_json: bool) -> None:
 def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, ...],
                  output: str, fuse: tuple[str, ...], baseline: str | None, results: int,
                  metrics: tuple[str, ...], resamples: int, seed: int, judged_by: str,
-                 ann: str, cache_dir: str | None, template: str | None, title: str | None,
+                 ann: str, engine: str, address: str | None, workers: int | None,
+                 cache_dir: str | None, template: str | None, title: str | None,
                  no_scrub: bool, retime: bool, threads: int | None, quiet: bool,
                  as_json: bool, **limits: float | str | None) -> None:
     """Index, search, score, compare and analyse misses for every encoder in one go,
@@ -82,11 +85,16 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
       trawl synth corpora/quillfern.jsonl -o silver/qf
       trawl eval corpora/quillfern.jsonl silver/qf.queries.tsv silver/qf.qrels \\
         -e minilm -e bm25 --fuse minilm+bm25 -o eval-out --threads 1
+      trawl eval items.jsonl q.tsv q.qrels -e minilm -o eval-out --engine ray --address auto
     """
     from pathlib import Path
 
+    from ..engines import make_engine
     from ..metrics import DEFAULT_METRICS
     from ..pipeline import JudgmentSet, evaluate
+
+    reject(engine_conflicts(engine, address, workers))
+    runner = make_engine(engine, address, workers)
 
     silver = {"auto": None, "silver": True, "human": False}[judged_by]
     js = JudgmentSet("judgments", Path(queries), Path(qrels), Path(qrels).name, silver=silver)
@@ -94,7 +102,7 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
                       metrics=metrics or DEFAULT_METRICS, resamples=resamples, seed=seed,
                       ann=ann, cache_dir=cache_dir, template=template, title=title,
                       scrub_queries=not no_scrub, retime=retime, threads=threads, quiet=quiet,
-                      notify=step(quiet or as_json), limits=limits_from(limits))
+                      notify=step(quiet or as_json), limits=limits_from(limits), engine=runner)
     _finish(result, as_json)
     if not as_json:
         click.echo(result.bundle["setup"]["notes"]["privacy"])

@@ -14,6 +14,7 @@ from .. import __version__
 from ..catalogue import Catalogue, load_catalogue
 from ..decision import Limits
 from ..embedcache import check_cache_dir, default_cache_dir
+from ..engines import Engine
 from ..errors import UsageError
 from ..files import check_writable, write_text_atomic
 from ..latency import check_threads
@@ -84,7 +85,7 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
              agreement: tuple[str, str] | None = None, title: str | None = None,
              scrub_queries: bool = False, retime: bool = False, threads: int | None = None,
              quiet: bool = False, notify: Notify | None = None,
-             limits: Limits | None = None) -> EvalResult:
+             limits: Limits | None = None, engine: Engine | None = None) -> EvalResult:
     """Index, search (timed), fuse, score, compare, tabulate misses and write the report.
 
     ``encoders`` are specs (``NAME=SPEC`` to name one); ``fuse`` entries join system
@@ -97,6 +98,7 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
     evaluation into the same folder keeps that run and its latency figures (the report
     says so); ``retime`` searches and times everything again. ``limits`` (latency, index
     size, accepted quality loss, headline metric) shape the decision (``decision.decide``).
+    ``engine`` is where index builds embed (``engines``; default: this process).
     """
     started = time.perf_counter()
     # everything that can be wrong with the request is checked before any work
@@ -115,7 +117,7 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         check_cache_dir(Path(cache_dir) if cache_dir is not None else default_cache_dir())
     clear_leftovers(out)
     indexes = _index_systems(plan, cat, out, ann,
-                             Path(cache_dir) if cache_dir is not None else None)
+                             Path(cache_dir) if cache_dir is not None else None, engine)
     with staged(out) as stage:  # published as a whole at the end (pipeline.publish)
         results = _evaluate_into(plan, cat, loaded, indexes, out, stage, agreement, k, ann,
                                  title)
@@ -191,7 +193,7 @@ def _check_request(encoders: Sequence[str], fuse: Sequence[str], baseline: str |
 
 
 def _index_systems(plan: _Plan, cat: Catalogue, out: Path, ann: str,
-                   cache: Path | None) -> dict[str, Any]:
+                   cache: Path | None, engine: Engine | None) -> dict[str, Any]:
     """Every encoder system's index in ``out/indexes/NAME``, reused when it still matches."""
     from .reuse import open_or_build
 
@@ -202,7 +204,7 @@ def _index_systems(plan: _Plan, cat: Catalogue, out: Path, ann: str,
             continue
         plan.say(f"index {s.name} ({len(cat)} items)")
         indexes[s.name], reused = open_or_build(cat, s.spec, out / "indexes" / s.name, ann,
-                                                cache, plan.quiet, loader, s.store)
+                                                cache, plan.quiet, loader, s.store, engine)
         if reused:
             plan.say(f"  reused {out / 'indexes' / s.name}")
     return indexes

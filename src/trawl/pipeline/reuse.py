@@ -19,20 +19,22 @@ from ..catalogue import Catalogue
 from ..errors import EncoderMismatchError, InputError, StaleIndexError, TrawlError
 from ..fusion import RRF_K
 from ..latency import DEFAULT_WARMUP
+from ..engines import Engine
 from ..retrievers.loading import EncoderLoader
 from ..retrievers.spec import EncoderSpec
 from ..runs import Run, read_run
+from ..stores import StoreSettings
 from .publish import stamp_matches
 
 RUN_STAMP = "run_file"  # latency sidecar key: size and SHA-256 of the run file
-from ..stores import StoreSettings
 
 
 def open_or_build(catalogue: Catalogue, spec: EncoderSpec, folder: Path, ann: str,
                   cache_dir: Path | None, quiet: bool, loader: EncoderLoader,
-                  store: StoreSettings | None = None) -> tuple[Any, bool]:
+                  store: StoreSettings | None = None,
+                  engine: Engine | None = None) -> tuple[Any, bool]:
     """The index in ``folder`` when it still matches, vector store included (True), else
-    (re)built (False)."""
+    (re)built (False), embedding on ``engine`` (default: this process)."""
     from ..index import build_index, open_index
 
     store = store or StoreSettings()
@@ -45,7 +47,7 @@ def open_or_build(catalogue: Catalogue, spec: EncoderSpec, folder: Path, ann: st
     except (InputError, StaleIndexError, EncoderMismatchError):
         pass
     build_index(catalogue, spec, folder, ann=ann, cache_dir=cache_dir, quiet=quiet,
-                loader=loader, store=store)
+                loader=loader, store=store, engine=engine)
     return open_index(folder, catalogue, spec, loader=loader), False
 
 
