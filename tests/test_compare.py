@@ -121,6 +121,10 @@ def test_as_dict_rows_carry_every_field(comparison):
                                       "the headline family is every run vs the baseline "
                                       "on hit@1 over all queries")
     assert d["groups"][0] == {"type": None, "n": 6}
+    # scoring_data.py: q1-q5 have a type, q4 two (form, screen), q6 none: 5 + 1 rows of 6
+    assert d["type_rule"].endswith("; the per-type rows count 6 queries: 5 of the 6 judged "
+                                   "queries have a type, 1 of them counts toward more than "
+                                   "one (+1), and 1 toward none")
     assert set(d["rows"][0]) == set(CSV_COLUMNS)
     assert (d["rows"][1]["type"], d["rows"][1]["n"], d["rows"][1]["low"]) == ("article", 1, None)
 

@@ -27,7 +27,7 @@ from typing import Any
 import numpy as np
 
 from .catalogue import Catalogue
-from .destinations import TYPE_RULE
+from .destinations import TYPE_RULE, type_tally
 from .errors import UsageError
 from .judgments import Qrels
 from .metrics import DEFAULT_METRICS, Metric
@@ -83,6 +83,7 @@ class Comparison:
     method: str
     alpha: float
     warnings: tuple[str, ...]
+    tally: str = ""  # how the per-type query counts add up (destinations.type_tally)
 
     def as_dict(self) -> dict[str, Any]:
         return {
@@ -91,7 +92,8 @@ class Comparison:
             "metrics": list(self.metrics),
             "queries": self.queries,
             "groups": [{"type": g, "n": n} for g, n in self.groups.items()],
-            "type_rule": TYPE_RULE if len(self.groups) > 1 else None,
+            "type_rule": (f"{TYPE_RULE}; {self.tally}" if self.tally else TYPE_RULE)
+            if len(self.groups) > 1 else None,
             "resamples": self.resamples,
             "seed": self.seed,
             "interval": self.method,
@@ -171,7 +173,8 @@ def compare_scores(report: ScoreReport, resamples: int = 10000, seed: int = 0,
     rows_out = tuple(_corrected(pending, metrics[0]))
     return Comparison(runs[0], runs, metrics, len(report.qids),
                       {g: len(r) for g, r in groups.items()}, rows_out, resamples, seed,
-                      method, alpha, tuple(warnings))
+                      method, alpha, tuple(warnings),
+                      type_tally(report.types, len(report.qids)) if report.types else "")
 
 
 def correction_rule(headline: str) -> str:
