@@ -68,6 +68,8 @@ def test_per_type_counts_add_up_by_a_stated_tally():
     assert type_tally(types, 5) == ("the per-type rows count 4 queries: 3 of the 5 judged "
                                     "queries have a type, 1 of them counts toward more than "
                                     "one (+1), and 2 toward none")
+    assert type_tally({"q1": ("faq",), "q2": ("form",)}, 2) == (
+        "the per-type rows count each of the 2 judged queries once")
 
 
 def _boxes(svg: ET.Element) -> list[tuple[float, float, float, float, str]]:

@@ -68,6 +68,8 @@ def type_tally(types: Mapping[str, tuple[str, ...]], queries: int) -> str:
     queries toward more than one type count again in each, untyped ones in none."""
     extra = sum(len(t) - 1 for t in types.values())
     several = sum(len(t) > 1 for t in types.values())
+    if extra == 0 and len(types) == queries:
+        return f"the per-type rows count each of the {queries} judged queries once"
     return (f"the per-type rows count {len(types) + extra} queries: {len(types)} of the "
             f"{queries} judged queries have a type, {several} of them "
             f"{'counts' if several == 1 else 'count'} toward more than one (+{extra}), and "
