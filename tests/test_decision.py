@@ -166,6 +166,8 @@ def test_bad_input_is_refused():
         decide([SystemFigures("a")], [[0.1, 0.2]])
     with pytest.raises(UsageError, match="margin=-0.1"):
         Limits(margin=-0.1)
+    with pytest.raises(UsageError, match="ndcgg@10"):
+        Limits(headline="ndcgg@10")
 
 
 def test_runs_from_files_read_latency_sidecars(tmp_path):

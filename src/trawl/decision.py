@@ -59,6 +59,10 @@ class Limits:
         if not (math.isfinite(self.margin) and 0 <= self.margin < 1):
             raise UsageError(f"margin={self.margin} must be at least 0 and below 1 "
                              f"(a loss of the headline metric, e.g. {DEFAULT_MARGIN})")
+        if self.headline is not None:
+            from .metrics import parse_metrics
+
+            parse_metrics([self.headline])  # an unknown metric is refused before any work
 
 
 @dataclass(frozen=True)

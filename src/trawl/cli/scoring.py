@@ -148,13 +148,14 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, names: tupl
                                      "--json replaces it; drop one"),
             (len(runs) < 2, "compare needs at least two RUN files (a baseline and one more)")])
     ms = _metrics(metrics)
+    wanted = limits_from(limits)  # checked before any work
     got = read_scoring_inputs(qrels, runs, names, catalogue, partial_overlap)
     loaded = list(got.runs)
     if baseline in runs:  # a file name: the run read from it
         baseline = loaded[runs.index(baseline)].name
     comp = compare_runs(got.qrels, loaded, ms, baseline, resamples, seed, method,
                         got.catalogue, alpha, quiet)
-    verdict = decide_runs(got.qrels, loaded, runs, limits_from(limits),
+    verdict = decide_runs(got.qrels, loaded, runs, wanted,
                           silver=silver or is_silver(qrels), resamples=resamples, seed=seed,
                           alpha=alpha, judgment_set=qrels, first_metric=ms[0].name)
     if csv_path is not None:
