@@ -68,6 +68,8 @@ class LatencyReport:
     load_after: tuple[float, ...] = ()
     store: str = "fp32"             # how the index keeps vectors (stores.StoreSettings.label)
     vector_bytes: int = 0           # bytes of the vectors (codes) searched
+    # queries longer than the encoder's window (window.Truncation.as_dict); None: no window
+    queries_over_window: Mapping[str, int] | None = None
 
     @property
     def busy(self) -> bool:
@@ -158,8 +160,16 @@ def measure_search(index: Index, queries: Mapping[str, str], k: int = 100,
         batch_queries_per_s=_round(len(queries) / batch_seconds) if batch_seconds > 0 else 0.0,
         index_bytes=size, items=len(index), bytes_per_item=_round(size / len(index)),
         cpu=cpu_model(), threads=in_force, batch_threads=batch_threads, cores=all_cores(),
-        load_before=load_before, load_after=load_after, **store_summary(index.manifest))
+        load_before=load_before, load_after=load_after, **store_summary(index.manifest),
+        queries_over_window=_over_window(index, queries))
     return run, report
+
+
+def _over_window(index: Index, queries: Mapping[str, str]) -> dict[str, int] | None:
+    from .window import count_truncated
+
+    found = count_truncated(list(queries.values()), index.spec, index.spec.query_prefix)
+    return None if found is None else found.as_dict()
 
 
 def measure_fused(indexes: Sequence[Index], names: Sequence[str], queries: Mapping[str, str],

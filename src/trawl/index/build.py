@@ -18,7 +18,7 @@ import os
 import shutil
 import time
 from collections.abc import Iterable, Iterator, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -118,7 +118,19 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
                 _swap_into_place(tmp, out)
         finally:
             shutil.rmtree(tmp, ignore_errors=True)
-    return info_from_manifest(out, manifest)
+    return replace(info_from_manifest(out, manifest),
+                   items_over_window=_over_window(catalogue, enc_spec))
+
+
+def _over_window(catalogue: Catalogue, spec: EncoderSpec) -> dict[str, int] | None:
+    """How many items the encoder embeds only in part (``window.count_truncated``)."""
+    from ..window import count_truncated
+
+    if spec.lexical:
+        return None
+    texts = [catalogue.template.render(it) for it in catalogue.items]
+    found = count_truncated(texts, spec, spec.document_prefix)
+    return None if found is None else found.as_dict()
 
 
 def _embed(catalogue: Catalogue, encoder, cache_root: Path, batch_size: int,

@@ -55,6 +55,9 @@ class IndexInfo:
     bytes: int                      # size of the index folder
     store: str = "fp32"             # how vectors are kept: fp32, int8, binary+int8, binary+fp32
     vector_bytes: int = 0           # bytes of the vectors (codes) searched; 0 for bm25
+    # items longer than the encoder's window (window.Truncation.as_dict), counted by a
+    # build; None when not counted (bm25, static models, an index only opened)
+    items_over_window: Mapping[str, int] | None = None
 
     def as_dict(self) -> dict[str, Any]:
         return {k: (dict(v) if isinstance(v, Mapping) else v) for k, v in self.__dict__.items()}

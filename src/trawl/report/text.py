@@ -347,7 +347,8 @@ def index_built(d: Mapping[str, Any]) -> str:
     else:
         done = "inverted index)"
     return (f"indexed {d['items']} items with {d['spec']} ({done}, {d['items_per_s']:.1f} "
-            f"items/s; {d['bytes']:,} bytes -> {d['path']}")
+            f"items/s; {d['bytes']:,} bytes -> {d['path']}"
+            + _truncated(d.get("items_over_window"), "items"))
 
 
 def search(d: Mapping[str, Any], queries: int) -> str:
@@ -363,7 +364,17 @@ def search(d: Mapping[str, Any], queries: int) -> str:
     return (f"{table}\nwrote {d['run']} ({count(queries, 'query', 'queries')}, top {d['k']}) "
             f"and {d['latency_file']} ({count(d['queries_timed'], 'query', 'queries')} timed "
             f"one at a time, {d['warmup']} warm-up excluded; "
-            f"{count(d['threads'], 'thread')} on {d['cpu']})")
+            f"{count(d['threads'], 'thread')} on {d['cpu']})"
+            + _truncated(d.get("queries_over_window"), "queries"))
+
+
+def _truncated(over: Mapping[str, int] | None, what: str) -> str:
+    """A warning line when texts were longer than the encoder's window, else ""."""
+    if not over or not over["over"]:
+        return ""
+    return (f"\nwarning: {over['over']} of {over['total']} {what} are longer than the "
+            f"encoder's window of {over['window']} tokens; only their first "
+            f"{over['window']} tokens are embedded")
 
 
 def fused(output: str, name: str, queries: int) -> str:
