@@ -91,3 +91,23 @@ def test_writer_never_writes_a_score_the_readers_refuse(tmp_path):
         assert not (tmp_path / "r.run").exists()  # nothing half-written
     write_run(tmp_path / "ok.run", make_run("r", {"q1": [("d1", 1e-300), ("d2", -0.0)]}))
     assert dict(read_run(tmp_path / "ok.run").results["q1"]) == {"d1": 1e-300, "d2": 0.0}
+
+
+@pytest.mark.parametrize("verdict, ok", [("2.0", True), ("1", True), ("1e0", False),
+                                         ("0_1", False), ("\u0661", False)])
+def test_review_sheet_grades_follow_the_qrels_grammar(tmp_path, verdict, ok):
+    # before, a sheet took float(): "1e0" and "0_1" were grade 1 there, errors in qrels
+    from trawl.catalogue import Catalogue, Item
+    from trawl.review import read_sheet
+
+    cat = Catalogue("c.jsonl", (Item("kb-fares", "faq", "Fares"),))
+    path = tmp_path / "s.csv"
+    path.write_text("# grade scale: 0-2\nqid,item_id,reason,silver_grade,verdict\n"
+                    f"s1,kb-fares,silver,2,{verdict}\n", encoding="utf-8")
+    if ok:
+        assert str(parse_whole(verdict)) == read_sheet(path, cat).rows[0].verdict
+    else:
+        with pytest.raises(InputError, match=r"s\.csv:3: verdict: .* is not allowed"):
+            read_sheet(path, cat)
+        with pytest.raises(InputError, match="grade"):
+            qrels_with(verdict, tmp_path)

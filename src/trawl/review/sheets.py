@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import csv
 import io
-import math
 import re
 from collections import Counter
 from collections.abc import Iterable, Mapping, Sequence
@@ -22,6 +21,7 @@ from ..catalogue import Catalogue
 from ..errors import InputError
 from ..files import atomic_write, read_text
 from ..ids import is_valid_id
+from ..numbers import parse_whole
 
 COLUMNS = ("qid", "query", "style", "item_id", "type", "title", "snippet", "link", "reason",
            "silver_grade", "verdict", "note")
@@ -338,9 +338,6 @@ def _parse_row(path: Path, n: int, r: Mapping[str, str], catalogue: Catalogue,
 
 
 def _whole(s: str) -> int | None:
-    """A whole number, also as spreadsheets may re-save it ("2.0")."""
-    try:
-        x = float(s)
-    except ValueError:
-        return None
-    return int(x) if math.isfinite(x) and x.is_integer() else None
+    """A whole number by the grammar qrels use too (``numbers``; "2.0", as spreadsheets
+    may re-save it, is 2; "1_0" and "2e0" are not grades)."""
+    return parse_whole(s)
