@@ -70,6 +70,7 @@ class OnnxEncoder:
         self._export_root = Path(export_root) if export_root else None
         self._folder: Path | None = None
         self._tokenizer = None
+        self._pooling_mode: str | None = None   # read once: every query is pooled
 
     @property
     def int8(self) -> bool:
@@ -175,6 +176,11 @@ class OnnxEncoder:
         return min(limits) if limits else FALLBACK_MAX_TOKENS
 
     def _pooling(self) -> str:
+        if self._pooling_mode is None:
+            self._pooling_mode = self._read_pooling()
+        return self._pooling_mode
+
+    def _read_pooling(self) -> str:
         config = _read_json(self.folder() / POOLING_CONFIG)
         chosen = [name for key, name in POOLINGS.items() if config.get(key)]
         others = [k for k, v in config.items() if k.startswith("pooling_mode") and v
