@@ -57,16 +57,16 @@ seed_option = click.option("--seed", type=int, default=0, show_default=True,
 
 def _threads(ctx: click.Context, param: click.Parameter, value: int | None) -> int | None:
     if value is not None and value < 1:  # refused while parsing, before any work
-        raise UsageError(f"threads={value} must be >= 1; give --threads 1 or more, or leave "
-                         "it out for the libraries' defaults")
+        raise UsageError(f"threads={value} must be >= 1; give --threads 1 or more (default "
+                         "1: one compute thread per query, as an app replica serves)")
     return value
 
 
 threads_option = click.option(
-    "--threads", type=int, default=None, metavar="N", callback=_threads,
-    help="Compute threads (torch and faiss) while timing; give what a deployed replica will "
-         "have, e.g. 1 per worker on a shared machine (default: the libraries' own, one per "
-         "core). The latency file records the count used.")
+    "--threads", type=int, default=1, show_default=True, metavar="N", callback=_threads,
+    help="Compute threads (torch, onnxruntime and faiss) while timing single queries; give "
+         "what a deployed replica will have. Batch throughput always uses every core. The "
+         "latency file records both counts and the load average.")
 template_option = click.option(
     "--template", default=None, metavar="PATTERN",
     help="Text each item is embedded with, as a format pattern over item fields (default: "
