@@ -56,3 +56,27 @@ def test_index_and_search_report_what_was_cut(tmp_path):
     shown = text.search({**report.as_dict(), "run": "r.run", "latency_file": "r.lat"}, 2)
     assert shown.endswith("\nwarning: 1 of 2 queries are longer than the encoder's window "
                           "of 256 tokens; only their first 256 tokens are embedded")
+
+
+def test_eval_warns_about_cut_items_and_queries_on_screen_and_in_results(tmp_path):
+    import json
+
+    from .conftest import invoke
+
+    (tmp_path / "cat.jsonl").write_text(
+        json.dumps({"id": "a", "type": "faq", "title": "Late fees"}) + "\n"
+        + json.dumps({"id": "b", "type": "article", "title": "Timetables", "text": LONG}) + "\n")
+    (tmp_path / "q.tsv").write_text(f"q1\tlate fees\nq2\t{OVER}\n")
+    (tmp_path / "q.qrels").write_text("q1 0 a 1\nq2 0 b 1\n")
+    res = invoke(["eval", tmp_path / "cat.jsonl", tmp_path / "q.tsv", tmp_path / "q.qrels",
+                  "-e", "minilm", "-o", tmp_path / "out", "--cache-dir", tmp_path / "c",
+                  "--results", "2", "-q"])
+    assert res.exit_code == 0, res.output
+    want = ["minilm: 1 of 2 items are longer than the encoder's window of 256 tokens; only "
+            "their first 256 tokens are embedded",
+            "minilm: 1 of 2 queries are longer than the encoder's window of 256 tokens; only "
+            "their first 256 tokens are embedded"]
+    warnings = json.loads((tmp_path / "out" / "results.json").read_text()
+                          )["evaluations"][0]["warnings"]
+    for w in want:
+        assert w in warnings and f"warning: {w}" in res.stdout

@@ -239,8 +239,28 @@ def _evaluate_set(plan: _Plan, ld: LoadedSet, cat: Catalogue, indexes: Mapping[s
     misses = [miss_table(ld.qrels, runs[n], cat, min(MISS_K, plan.depth), WORST_QUERIES,
                          shown) for n in plan.names]
     write_tables(stage / js.name, scores, comparison, misses)
-    return found, evaluation_entry(ld, plan.names, plan.baseline, found.latency, scores,
-                                   comparison, misses)
+    entry = evaluation_entry(ld, plan.names, plan.baseline, found.latency, scores,
+                             comparison, misses)
+    cut = _truncation_warnings(plan.systems, cat, ld.queries)
+    return found, (replace(entry, warnings=entry.warnings + cut) if cut else entry)
+
+
+def _truncation_warnings(systems: Sequence[System], cat: Catalogue,
+                         queries: Mapping[str, str]) -> tuple[str, ...]:
+    """Per dense system, the items and queries longer than its encoder's window."""
+    from ..window import count_truncated
+
+    out = []
+    texts = [cat.template.render(it) for it in cat.items]
+    for s in systems:
+        if s.spec is None or s.spec.lexical:
+            continue
+        for what, found in (("items", count_truncated(texts, s.spec, s.spec.document_prefix)),
+                            ("queries", count_truncated(list(queries.values()), s.spec,
+                                                        s.spec.query_prefix))):
+            if found is not None and found.over:
+                out.append(f"{s.name}: {found.describe(what)}")
+    return tuple(out)
 
 
 def _agreement(plan: _Plan, pair: tuple[str, str], loaded: Sequence[LoadedSet],
