@@ -96,3 +96,13 @@ def test_query_of_only_invisible_characters_is_refused_like_an_empty_one(tmp_pat
     assert str(exc.value) == (f"{path}:2: text: query 'q2' has no visible text, only "
                               f"{visible(text)}; give it words or remove the line")
     assert "\\u" in str(exc.value)
+
+
+def test_scores_per_type_say_when_types_look_alike():
+    # the per-type rows of 'FAQ' and 'faq' are counted apart; the reader is told why
+    qrels = {"q1": {"lost-card": 2}, "q2": {NFC: 2}}
+    rep = score_runs(qrels, make_run("r", {"q1": [("lost-card", 1.0)]}), ["hit@1"],
+                     catalogue())
+    assert ("destination types that look alike but differ, counted apart: 'FAQ' and 'faq' "
+            "(differ in case only)") in rep.warnings
+    assert list(rep.groups()) == [None, "FAQ", "faq"]

@@ -15,7 +15,7 @@ import numpy as np
 
 from .catalogue import Catalogue
 from .ids import examples
-from .lookalike import near_miss_lines
+from .lookalike import describe, groups, near_miss_lines
 from .judgments import Qrels
 
 TYPE_RULE = ("a query counts toward the destination type of its best-graded relevant "
@@ -56,6 +56,8 @@ def query_types(qrels: Qrels, catalogue: Catalogue
         if near:
             warnings.append(f"judged items that look like catalogue items but differ, so "
                             f"they are not matched: {len(near)}: {'; '.join(near[:5])}")
+    warnings += [f"destination types that look alike but differ, counted apart: "
+                 f"{describe(g)}" for g in groups(catalogue.type_counts())]
     if untyped:
         warnings.append(f"queries whose best-graded items are all missing from the "
                         f"catalogue (so in no destination type): {len(untyped)}: "
