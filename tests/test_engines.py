@@ -45,6 +45,18 @@ def test_cluster_options_are_refused_for_the_local_engine():
         make_engine("spark")
 
 
+@pytest.mark.parametrize("command", ["index", "eval"])
+def test_cluster_flags_without_the_ray_engine_are_refused_before_any_work(tmp_path, command):
+    from tests.conftest import DEMO_CATALOGUE, GOLD_QRELS, GOLD_QUERIES, invoke
+
+    inputs = [DEMO_CATALOGUE] + ([GOLD_QUERIES, GOLD_QRELS] if command == "eval" else [])
+    result = invoke([command, *inputs, "-e", "bm25", "-o", tmp_path / "out", "--workers",
+                     "2"])
+    assert result.exit_code == 2
+    assert result.output.strip() == "error: --workers needs --engine ray (got --engine local)"
+    assert not (tmp_path / "out").exists()
+
+
 @pytest.fixture(scope="module")
 def ray_runtime(tmp_path_factory):
     ray = pytest.importorskip("ray", reason="Ray is not installed (pip install 'trawl[ray]')")
