@@ -219,3 +219,20 @@ def test_int8_model_stays_close_to_fp32(cranfield, export_root, exported):
     assert cosine.mean() >= 0.99 and cosine.min() >= 0.97
     assert (exported / INT8_FILE).stat().st_size < 0.3 * (exported / MODEL_FILE).stat().st_size
     assert int8.describe()["quantised"].startswith("model weights int8")
+
+
+def test_onnx_specs_parse_round_trip_and_load_the_onnx_encoder(tmp_path):
+    from trawl.retrievers.spec import parse_spec
+
+    folder, _, _ = tiny_onnx_folder(tmp_path / "tiny")
+    spec = parse_spec(f"onnx:{folder};query=query: ")
+    assert (spec.kind, spec.path, spec.query_prefix) == ("onnx", str(folder), "query: ")
+    assert parse_spec(str(spec)) == spec
+    assert parse_spec("minilm-onnx-int8").quantised_model and not parse_spec("minilm-onnx").quantised_model
+    encoder = EncoderLoader().encoder(spec)
+    assert isinstance(encoder, onnx_enc.OnnxEncoder)
+    # the prefix reaches the tokenizer: with it, the query's vector changes
+    plain = onnx_enc.OnnxEncoder(parse_spec(f"onnx:{folder}"), EncoderLoader())
+    assert not np.allclose(encoder.encode_queries(["fares"]), plain.encode_queries(["fares"]))
+    with pytest.raises(UsageError, match="give a folder with model.onnx and tokenizer.json"):
+        parse_spec(f"onnx:{tmp_path / 'missing'}")
