@@ -230,7 +230,7 @@ def verdict(ratio: float, goal: float) -> str:
 
 def report_score(ref: dict, score: dict, comp: dict, runs: int, resamples: int) -> None:
     print(f"{'':<46} {'wall':>8} {'CPU':>8} {'peak RSS':>10}")
-    for name, r in ((f"ir_measures, one run (3 metrics)", ref),
+    for name, r in (("ir_measures, one run (3 metrics)", ref),
                     ("trawl score, one run (3 metrics)", score),
                     (f"trawl compare, {runs} runs, {resamples:,} resamples", comp)):
         print(f"  {name:<44} {r['process_wall']:7.1f}s {r['cpu']:7.1f}s {mb(r['peak']):>10}")

@@ -301,7 +301,6 @@ def _rank_ordered(qid_values: Any, queries: np.ndarray, codes: np.ndarray,
                   scores: np.ndarray, vocabulary: Any) -> RankedColumns | None:
     """Group lines by query (first-appearance order) and put each query in trec_eval
     order; None when a query lists an item twice."""
-    n = queries.size
     starts = np.flatnonzero(np.concatenate(([True], queries[1:] != queries[:-1])))
     present, first = np.unique(queries[starts], return_index=True)
     appearance = np.argsort(starts[first], kind="stable")  # codes in order of first line
