@@ -68,6 +68,7 @@ def ray_runtime(tmp_path_factory):
              runtime_env={"env_vars": {"PYTHONPATH": path, PID_FOLDER_VAR: str(pids)}})
     yield pids
     ray.shutdown()
+    os.environ.pop(PID_FOLDER_VAR, None)
 
 
 def build_both(tmp_path, catalogue, spec, **ray_kw):
