@@ -53,8 +53,8 @@ def test_bm25_index_and_search_write_run_and_latency(files):
     assert latency["bytes_per_item"] == pytest.approx(latency["index_bytes"] / 5, abs=1e-3)
     assert "warm-up queries excluded" in latency["method"]
     assert result.stdout.splitlines()[0].split() == ["encoder", "p50", "ms", "p95", "ms", "p99",
-                                                     "ms", "batch", "q/s", "index", "bytes",
-                                                     "bytes/item"]
+                                                     "ms", "batch", "q/s", "vectors", "index",
+                                                     "bytes", "bytes/item"]
 
 
 def test_search_json_output(files):

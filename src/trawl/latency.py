@@ -182,9 +182,13 @@ def measure_fused(indexes: Sequence[Index], names: Sequence[str], queries: Mappi
         runs = [Run(n, {qid: ix.search_one(text, k)}) for n, ix in zip(names, indexes)]
         reciprocal_rank_fusion(runs, RRF_K, depth=k, name=name)
 
+    load_before = load_average()
     per_query = time_queries(serve, queries, warmup)
+    load_after = load_average()
     out: dict[str, Any] = percentiles(per_query)
-    out.update(queries_timed=len(per_query), warmup=warmup, k=k,
+    out.update(queries_timed=len(per_query), warmup=warmup, k=k, cores=all_cores(),
+               load_before=list(load_before), load_after=list(load_after),
+               busy=machine_busy(load_before, load_after, all_cores()),
                method=f"per-query: search of each part ({', '.join(names)}) one query at a "
                       f"time, then Reciprocal Rank Fusion (k={RRF_K}); {warmup} warm-up "
                       "queries excluded")

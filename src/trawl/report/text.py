@@ -358,14 +358,17 @@ def search(d: Mapping[str, Any], queries: int) -> str:
 
     table = plain_table([[d["encoder"], fmt.ms(d["p50_ms"]), fmt.ms(d["p95_ms"]),
                           fmt.ms(d["p99_ms"]), f"{d['batch_queries_per_s']:.0f}",
-                          d["index_bytes"], f"{d['bytes_per_item']:.0f}"]],
-                        ["encoder", "p50 ms", "p95 ms", "p99 ms", "batch q/s", "index bytes",
-                         "bytes/item"])
+                          d.get("store", "fp32"), d["index_bytes"], f"{d['bytes_per_item']:.0f}"]],
+                        ["encoder", "p50 ms", "p95 ms", "p99 ms", "batch q/s", "vectors",
+                         "index bytes", "bytes/item"])
     return (f"{table}\nwrote {d['run']} ({count(queries, 'query', 'queries')}, top {d['k']}) "
             f"and {d['latency_file']} ({count(d['queries_timed'], 'query', 'queries')} timed "
             f"one at a time, {d['warmup']} warm-up excluded; "
             f"{count(d['threads'], 'thread')} on {d['cpu']})"
-            + _truncated(d.get("queries_over_window"), "queries"))
+            + _truncated(d.get("queries_over_window"), "queries")
+            + (f"\nwarning: the load average ({max(d['load_before'][0], d['load_after'][0]):.1f})"
+               f" was above the {d['cores']} cores while timing; latency is inflated"
+               if d.get("busy") else ""))
 
 
 def _truncated(over: Mapping[str, int] | None, what: str) -> str:
