@@ -161,6 +161,14 @@ def test_decision_round_trips_through_the_bundle_reader():
     assert back == d
 
 
+def test_too_few_queries_cannot_decide():
+    d = decide([SystemFigures("a", 1, 1, 1), SystemFigures("b", 2, 2, 2)],
+               [[1, 0.5, 0.2], [0.9, 0.5, 0.2]], resamples=200)
+    assert d.verdict == CANT_TELL and d.queries_needed >= 10
+    assert d.headline.startswith("can't tell: 3 judged queries are too few to decide "
+                                 "(fewer than 10); a leads b by +0.033 ndcg@10; judge about ")
+
+
 def test_bad_input_is_refused():
     with pytest.raises(UsageError, match="at least two systems"):
         decide([SystemFigures("a")], [[0.1, 0.2]])

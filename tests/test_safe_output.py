@@ -294,9 +294,12 @@ def eval_inputs(tmp_path: Path, hostile: bool) -> list:
     folder = tmp_path / ("hostile" if hostile else "plain")
     folder.mkdir()
     (folder / "c.jsonl").write_text("".join(json.dumps(r) + "\n" for r in rows))
+    # q4 shares no word with any item, so both reports list at least one worst query
     (folder / "q.tsv").write_text(f"q1\t{h['query']} mara.quillen@example.org\n"
-                                  "q2\trefund pass call +44 7700 900123\nq3\tplan a journey\n")
-    (folder / "j.qrels").write_text(f"q1 0 lp-1 2\nq2 0 {h['id']} 2\nq3 0 rt-3 1\nq3 0 fa-4 2\n")
+                                  "q2\trefund pass call +44 7700 900123\nq3\tplan a journey\n"
+                                  "q4\tweather forecast\n")
+    (folder / "j.qrels").write_text(f"q1 0 lp-1 2\nq2 0 {h['id']} 2\nq3 0 rt-3 1\nq3 0 fa-4 2\n"
+                                    "q4 0 fa-4 2\n")
     return [folder / "c.jsonl", folder / "q.tsv", folder / "j.qrels", "-e", "bm25", "-e",
             "loose=bm25;k1=0.9", "--resamples", "200", "-q", "--title", h["report"], "-o",
             folder / "out"]

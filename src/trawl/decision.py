@@ -332,6 +332,14 @@ def _verdict(cands: Sequence[Candidate], lead: int, pairs: Sequence[PairFigures]
         return "ship", leader.name, (f"ship {leader.name}: the only system within the "
                                      f"limits ({_metric(limits)} {leader.quality:.3f})"), "", None
     n = pairs[0].n
+    if n < MIN_QUERIES:  # no interval, so nothing can be confirmed or separated
+        runner = pairs[0]
+        needed = max(MIN_QUERIES, runner.queries_to_separate or 0)
+        return CANT_TELL, leader.name, (
+            f"can't tell: {n} judged queries are too few to decide (fewer than "
+            f"{MIN_QUERIES}); {leader.name} leads {runner.candidate} by "
+            f"{_signed(-runner.diff)} {_metric(limits)}; {_judge(needed, n)}"), (
+            f"sd of the per-query differences {runner.sd:.3f}"), needed
     fine = [p for p in pairs if p.non_inferior == YES]
     chosen = min([leader] + [by[p.candidate] for p in fine], key=_cost)
     open_ = sorted((p for p in pairs if p.non_inferior == CANT_TELL
