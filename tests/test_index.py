@@ -266,7 +266,9 @@ def test_index_info_and_manifest_describe_the_build(built):
     assert m["catalogue"]["items"] == 30 and m["catalogue"]["template"] == "{title}\n{text}"
     assert set(m["versions"]) == {"trawl", "torch", "transformers", "sentence-transformers",
                                   "numpy", "faiss-cpu"}
-    assert set(m["build"]) == {"created_at", "embedded", "reused", "seconds", "items_per_s"}
+    assert set(m["build"]) == {"created_at", "engine", "embedded", "reused", "seconds",
+                               "items_per_s"}
+    assert m["build"]["engine"] == "local"
     assert (folder / "ids.txt").read_text().split() == tiny_catalogue().ids
     assert np.load(folder / "vectors.npy").shape == (30, 16)
 
