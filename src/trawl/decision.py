@@ -269,11 +269,12 @@ def decide(systems: Sequence[SystemFigures], scores: np.ndarray | Sequence[Seque
     """The recommendation for ``systems`` whose per-query headline scores are the rows of
     ``scores`` (systems x queries, the same queries in the same order for every system).
 
-    The leader is the best-scoring system within the limits. A cheaper system within the
-    limits (lower p95, or a smaller index) that is non-inferior to the leader by the
-    margin is recommended instead (the cheapest such). Otherwise the leader is, and when
-    its interval against the runner-up includes 0 the verdict is "can't tell" with the
-    number of judged queries that would settle it.
+    The leader is the best-scoring system within the limits. The cheapest (lowest p95,
+    then smallest index) of the leader and the systems non-inferior to it by the margin
+    is recommended. The verdict is "can't tell", with the judged queries that would
+    settle it, when a still cheaper system might be within the margin, when the leader
+    and the runner-up cost the same and their interval includes 0, or when there are
+    fewer than ``stats.MIN_QUERIES`` queries.
     """
     scores = np.asarray(scores, dtype=np.float64)
     if scores.ndim != 2 or scores.shape[0] != len(systems) or len(systems) < 2:
