@@ -192,7 +192,8 @@ def test_bootstrap_is_seeded():
     runs = _systems(a, noises=(0.8, 1.0, 1.2, 1.4))
     one = agree(a, b, runs, resamples=400, seed=3).as_dict()
     assert one == agree(a, b, runs, resamples=400, seed=3).as_dict()
-    assert one["bootstrap"] == {"resamples": 400, "seed": 3, "confidence": 0.95}
+    assert one["bootstrap"] == {"resamples": 400, "seed": 3, "confidence": 0.95,
+                                "note": None}
     assert one["spearman_rho"]["low"] <= one["spearman_rho"]["value"] <= 1.0
     assert one["kendall_tau_b"]["low"] < one["kendall_tau_b"]["high"]
 

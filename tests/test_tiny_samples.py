@@ -98,3 +98,18 @@ def test_exact_sign_flip_p_matches_scipy_permutation_test(d, resamples):
                                        vectorized=True, n_resamples=2 ** len(d),
                                        alternative="two-sided").pvalue
     assert randomisation_test(a, b, resamples=resamples, seed=7) == pytest.approx(ref, abs=1e-12)
+
+
+def test_agreement_of_two_queries_gives_no_interval_but_the_reason():
+    # before: "[-1.000, 1.000]" from a bootstrap over two queries
+    from trawl.agreement import agree
+
+    qrels_a = {"q0": {"it0": 1}, "q1": {"it1": 1}}
+    qrels_b = {"q0": {"it0": 1}, "q1": {"it0": 1}}
+    runs = [make_run(n, {q: [(i, 2.0), (j, 1.0)] for q, (i, j) in pairs.items()})
+            for n, pairs in (("r1", {"q0": ("it0", "it1"), "q1": ("it1", "it0")}),
+                             ("r2", {"q0": ("it1", "it0"), "q1": ("it0", "it1")}),
+                             ("r3", {"q0": ("it0", "it1"), "q1": ("it0", "it1")}))]
+    d = agree(qrels_a, qrels_b, runs, metric="mrr@10", resamples=500).as_dict()
+    assert d["bootstrap"]["note"] == "too few queries"
+    assert (d["kendall_tau_b"]["low"], d["kendall_tau_b"]["high"]) == (None, None)

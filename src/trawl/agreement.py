@@ -19,7 +19,7 @@ import numpy as np
 from .errors import UsageError
 from .runs import Run
 from .stats import (average_ranks, kendall_tau_b, none_if_nan, rho_rows, spearman_rho,
-                    tau_b_rows)
+                    tau_b_rows, too_few)
 
 Qrels = Mapping[str, Mapping[str, int]]
 
@@ -73,6 +73,7 @@ class Agreement:
     resamples: int
     seed: int
     confidence: float
+    note: str | None = None  # stats.TOO_FEW when a set has too few queries for an interval
 
     def as_dict(self) -> dict[str, Any]:
         return {
@@ -84,7 +85,7 @@ class Agreement:
             "flips": [{"first": f.first, "second": f.second, "diff_a": f.diff_a,
                        "diff_b": f.diff_b} for f in self.flips],
             "bootstrap": {"resamples": self.resamples, "seed": self.seed,
-                          "confidence": self.confidence},
+                          "confidence": self.confidence, "note": self.note},
         }
 
 
@@ -140,7 +141,8 @@ def agree(qrels_a: Qrels, qrels_b: Qrels, runs: Sequence[Run], metric: str = "nd
     ib_only = np.array([i for i, q in enumerate(qids_b) if q not in set_a], dtype=int)
 
     tau_ci = rho_ci = (math.nan, math.nan)
-    if resamples > 0:
+    note = too_few(min(len(qids_a), len(qids_b))) if resamples > 0 else None
+    if resamples > 0 and note is None:
         rng = np.random.default_rng(seed)
         draw_s = rng.integers(0, len(shared), (resamples, len(shared)))
         draw_a = rng.integers(0, len(ia_only), (resamples, len(ia_only)))
@@ -163,7 +165,7 @@ def agree(qrels_a: Qrels, qrels_b: Qrels, runs: Sequence[Run], metric: str = "nd
     flips.sort(key=lambda f: (-(f.diff_a - f.diff_b), f.first, f.second))
     return Agreement(column, len(qids_a), len(qids_b), len(shared), systems,
                      Correlation(tau, *tau_ci), Correlation(rho, *rho_ci), tuple(flips),
-                     resamples, seed, confidence)
+                     resamples, seed, confidence, note)
 
 
 def _replicate_means(scores: np.ndarray, shared: np.ndarray, only: np.ndarray) -> np.ndarray:

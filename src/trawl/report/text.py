@@ -230,9 +230,9 @@ def agreement(d: Mapping[str, Any]) -> str:
           f"over queries, seed {boot['seed']}") if boot["resamples"] else \
         "no interval (--resamples 0)"
     out.append(plain_table([["Kendall's tau-b", _share(tau["value"]),
-                             _interval(tau["low"], tau["high"])],
+                             boot.get("note") or _interval(tau["low"], tau["high"])],
                             ["Spearman's rho", _share(rho["value"]),
-                             _interval(rho["low"], rho["high"])]],
+                             boot.get("note") or _interval(rho["low"], rho["high"])]],
                            ["agreement", "value", "interval"], "lrr"))
     out.append(f"({ci})")
     if len(d["systems"]) < 4:
