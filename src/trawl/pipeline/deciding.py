@@ -55,6 +55,12 @@ def evaluation_decision(systems: Sequence[System], loaded: Sequence[LoadedSet],
     found = searched[ld.spec.name]
     runs = [found.runs[s.name] for s in systems]
     report = score_runs(ld.qrels, runs, [limits.headline])
+    notes = [UNKNOWN_ORIGIN] if ld.origin == "unknown" else []
     return decide([system_figures(s, indexes, found.latency) for s in systems],
                   report.values[:, :, 0], limits, judgment_set=ld.spec.label or ld.spec.name,
-                  silver=ld.silver, resamples=resamples, seed=seed, alpha=alpha)
+                  silver=ld.silver, resamples=resamples, seed=seed, alpha=alpha, notes=notes)
+
+
+UNKNOWN_ORIGIN = ("the judgments' origin is unknown (not declared as people's, no synthesis "
+                  "provenance beside them): if a machine made them, treat this verdict as "
+                  "provisional until people have judged a sample")
