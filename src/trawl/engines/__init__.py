@@ -9,7 +9,9 @@ vectors were computed.
 
 from __future__ import annotations
 
+from collections import deque
 from collections.abc import Iterable, Iterator
+from concurrent.futures import Future, ThreadPoolExecutor
 from typing import Protocol
 
 import numpy as np
@@ -31,14 +33,30 @@ class Engine(Protocol):
 
 
 class LocalEngine:
-    """Embeds in this process with the encoder the build already holds."""
+    """Embeds in this process with the encoder the build already holds.
+
+    One chunk is embedded on a helper thread while the build stores the previous one
+    (the encoders and SQLite release the interpreter lock while they work), so storing
+    vectors overlaps embedding instead of adding to it. Chunks and batches are the same
+    as embedding in turn, so the vectors are too.
+    """
 
     name = "local"
 
     def encode_chunks(self, spec: EncoderSpec, encoder: Encoder,
                       chunks: Iterable[list[str]], batch_size: int) -> Iterator[np.ndarray]:
-        for texts in chunks:
-            yield encoder.encode_documents(texts, batch_size)
+        with ThreadPoolExecutor(max_workers=1, thread_name_prefix="trawl-embed") as pool:
+            pending: deque[Future[np.ndarray]] = deque()
+            try:
+                for texts in chunks:
+                    pending.append(pool.submit(encoder.encode_documents, texts, batch_size))
+                    if len(pending) > 1:
+                        yield pending.popleft().result()
+                while pending:
+                    yield pending.popleft().result()
+            finally:
+                for future in pending:
+                    future.cancel()
 
 
 def make_engine(name: str = "local", address: str | None = None,
