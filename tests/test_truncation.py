@@ -54,8 +54,8 @@ def test_index_and_search_report_what_was_cut(tmp_path):
     _, report = measure_search(index, {"q1": "late fees", "q2": OVER}, k=2, warmup=0)
     assert report.queries_over_window == {"over": 1, "total": 2, "window": 256}
     shown = text.search({**report.as_dict(), "run": "r.run", "latency_file": "r.lat"}, 2)
-    assert shown.endswith("\nwarning: 1 of 2 queries are longer than the encoder's window "
-                          "of 256 tokens; only their first 256 tokens are embedded")
+    assert ("warning: 1 of 2 queries are longer than the encoder's window of 256 tokens; "
+            "only their first 256 tokens are embedded") in shown.splitlines()
 
 
 def test_eval_warns_about_cut_items_and_queries_on_screen_and_in_results(tmp_path):
