@@ -70,3 +70,17 @@ def test_search_command_refuses_a_name_with_white_space(tmp_path, monkeypatch):
                           "which must be one field without white space or control "
                           "characters; use e.g. 'my_run'\n")
     assert not (tmp_path / "r.run").exists()
+
+
+def test_a_run_in_which_nothing_was_found_reads_back(tmp_path):
+    # bm25 lists only matching items, so queries of stop words give an empty run file;
+    # before, every command refused the file trawl had just written ("run is empty")
+    from trawl.scores import score_runs
+
+    write_run(tmp_path / "none.run", make_run("bm25", {"q1": []}))
+    assert (tmp_path / "none.run").read_text() == ""
+    run = read_run(tmp_path / "none.run")
+    assert (run.name, dict(run.results)) == ("none", {})
+    rep = score_runs({"q1": {"d1": 1}}, run, ["hit@1"])
+    assert rep.values.tolist() == [[[0.0]]]
+    assert "run 'none': queries without results, scored 0: 1 of 1: q1" in rep.warnings

@@ -45,7 +45,9 @@ def make_run(name: str, results: Mapping[str, Iterable[tuple[str, float]]]) -> R
 
 
 def read_run(path: str | Path, name: str | None = None) -> Run:
-    """Read a TREC run; duplicate (qid, item) entries are errors.
+    """Read a TREC run; duplicate (qid, item) entries are errors. A file without lines
+    is a run in which no query found anything (a lexical run whose queries share no
+    word with the catalogue is written so): it has no results, and scoring says so.
 
     Plainly written runs are read into columns (``columns.RankedColumns``), a few bytes
     per line; anything else is read line by line, which also locates every error.
@@ -97,7 +99,7 @@ def _read_lines(path: str | Path, text: str, name: str | None) -> Run:
         per_q.setdefault(qid, {})[item] = score
         tag = tag or t
     if not per_q:
-        raise InputError(path, "run is empty; expected lines of 'qid Q0 item_id rank score tag'")
+        return Run(name or name_from_path(path), {})
     return make_run(name or tag or Path(path).stem, {q: d.items() for q, d in per_q.items()})
 
 
