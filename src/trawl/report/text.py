@@ -365,10 +365,10 @@ def search(d: Mapping[str, Any], queries: int) -> str:
             f"and {d['latency_file']} ({count(d['queries_timed'], 'query', 'queries')} timed "
             f"one at a time, {d['warmup']} warm-up excluded; "
             f"{count(d['threads'], 'thread')} on {d['cpu']})"
-            + _truncated(d.get("queries_over_window"), "queries")
             + (f"\nwarning: the load average ({max(d['load_before'][0], d['load_after'][0]):.1f})"
                f" was above the {d['cores']} cores while timing; latency is inflated"
-               if d.get("busy") else ""))
+               if d.get("busy") else "")
+            + _truncated(d.get("queries_over_window"), "queries"))
 
 
 def _truncated(over: Mapping[str, int] | None, what: str) -> str:
