@@ -236,3 +236,15 @@ def test_onnx_specs_parse_round_trip_and_load_the_onnx_encoder(tmp_path):
     assert not np.allclose(encoder.encode_queries(["fares"]), plain.encode_queries(["fares"]))
     with pytest.raises(UsageError, match="give a folder with model.onnx and tokenizer.json"):
         parse_spec(f"onnx:{tmp_path / 'missing'}")
+
+
+def test_an_index_build_keeps_the_export_beside_its_embedding_cache(tmp_path, monkeypatch):
+    # The export itself is replaced by a tiny user folder: what is checked is where the
+    # encoder looks, which a build sets to its embedding cache unless a root was given.
+    monkeypatch.setenv("TRAWL_CACHE_DIR", str(tmp_path / "default"))
+    encoder = onnx_enc.OnnxEncoder(EncoderSpec("minilm-onnx"), EncoderLoader())
+    encoder.keep_exports_in(tmp_path / "build-cache")
+    assert encoder._export_root == tmp_path / "build-cache"
+    given = onnx_enc.OnnxEncoder(EncoderSpec("minilm-onnx"), EncoderLoader(), tmp_path / "mine")
+    given.keep_exports_in(tmp_path / "build-cache")
+    assert given._export_root == tmp_path / "mine"

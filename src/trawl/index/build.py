@@ -102,6 +102,8 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
                 section = runtime = None
             else:
                 encoder = loader.encoder(enc_spec)
+                if hasattr(encoder, "keep_exports_in"):
+                    encoder.keep_exports_in(cache_root)  # ONNX exports beside the vectors
                 fingerprint = encoder.fingerprint
                 vectors, embedded = _embed(catalogue, encoder, cache_root, batch_size, quiet,
                                            engine)

@@ -96,6 +96,12 @@ class OnnxEncoder:
                 "quantised": "model weights int8 (onnxruntime dynamic)" if self.int8 else "none",
                 "max_tokens": self._max_tokens(), "pooling": self._pooling()}
 
+    def keep_exports_in(self, cache_root: str | Path) -> None:
+        """Export into ``cache_root`` (the embedding cache in use) unless a root was given
+        or the export was already found."""
+        if self._export_root is None and self._folder is None:
+            self._export_root = Path(cache_root)
+
     def folder(self) -> Path:
         """The folder holding model.onnx and tokenizer files (exporting the bundled model
         into the cache on first use)."""
