@@ -248,3 +248,21 @@ def test_an_index_build_keeps_the_export_beside_its_embedding_cache(tmp_path, mo
     given = onnx_enc.OnnxEncoder(EncoderSpec("minilm-onnx"), EncoderLoader(), tmp_path / "mine")
     given.keep_exports_in(tmp_path / "build-cache")
     assert given._export_root == tmp_path / "mine"
+
+
+@pytest.mark.slow
+def test_a_later_process_uses_the_export_its_index_was_built_with(tmp_path, monkeypatch):
+    # Build with one cache folder, search from a "new process" (fresh loader) whose default
+    # cache is elsewhere: the recorded export is used, nothing is exported again.
+    from trawl.catalogue import Catalogue, Item
+    from trawl.index import build_index, open_index
+
+    monkeypatch.setenv("TRAWL_CACHE_DIR", str(tmp_path / "elsewhere"))
+    cat = Catalogue("tiny.jsonl", (Item("a", "faq", "Lost card", "Block a lost card."),
+                                   Item("b", "faq", "Late fees", "How late fees work.")))
+    build_index(cat, "minilm-onnx", tmp_path / "idx", cache_dir=tmp_path / "cache", quiet=True,
+                loader=EncoderLoader())
+    index = open_index(tmp_path / "idx", cat, "minilm-onnx", loader=EncoderLoader())
+    assert index.search_one("card blocked", 1)[0][0] == "a"
+    assert index.manifest["encoder"]["runtime"]["export"].startswith(str(tmp_path / "cache"))
+    assert not (tmp_path / "elsewhere" / "onnx").exists()

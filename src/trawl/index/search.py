@@ -159,6 +159,9 @@ class Index:
                     f"{self.path} was built (fingerprint {built} -> {encoder.fingerprint}); "
                     f"rebuild it: trawl index {self.manifest['catalogue']['path']} "
                     f"-e {self.spec} -o {self.path}")
+            export = (self.manifest["encoder"].get("runtime") or {}).get("export")
+            if export and hasattr(encoder, "use_export"):
+                encoder.use_export(export)  # the ONNX export the build used, if still there
             self._encoder = encoder
         return self._encoder
 

@@ -90,6 +90,7 @@ class OnnxEncoder:
         folder = self.folder()
         note = export_note(folder)
         return {"runtime": "onnxruntime", "onnxruntime": onnxruntime_version(),
+                "export": str(folder),
                 "model_digest": self._loader.digest(self._source)[:16],
                 "opset": note.get("opset", _model_opset(folder / MODEL_FILE)),
                 "exporter": note.get("exporter", "user export"),
@@ -101,6 +102,14 @@ class OnnxEncoder:
         or the export was already found."""
         if self._export_root is None and self._folder is None:
             self._export_root = Path(cache_root)
+
+    def use_export(self, folder: str | Path) -> None:
+        """Use the export an index was built with when it is still there and current
+        (a later process need not know which cache folder the build used)."""
+        folder = Path(folder)
+        if self._bundled and self._folder is None and \
+                export_note(folder).get("model_digest") == self._loader.digest(self._source):
+            self._folder = folder
 
     def folder(self) -> Path:
         """The folder holding model.onnx and tokenizer files (exporting the bundled model
