@@ -164,9 +164,21 @@ def test_decision_round_trips_through_the_bundle_reader():
 def test_too_few_queries_cannot_decide():
     d = decide([SystemFigures("a", 1, 1, 1), SystemFigures("b", 2, 2, 2)],
                [[1, 0.5, 0.2], [0.9, 0.5, 0.2]], resamples=200)
-    assert d.verdict == CANT_TELL and d.queries_needed >= 10
-    assert d.headline.startswith("can't tell: 3 judged queries are too few to decide "
-                                 "(fewer than 10); a leads b by +0.033 ndcg@10; judge about ")
+    assert d.verdict == CANT_TELL and d.queries_needed == 10
+    assert d.headline == ("can't tell: 3 judged queries are too few to decide (fewer than "
+                          "10); a leads b by +0.033 ndcg@10; judge at least 10 queries in "
+                          "all (7 more)")
+
+
+def test_too_few_queries_give_no_sample_size_from_their_spread():
+    # two queries with the same difference: sd 0, which would size a sample of 2
+    d = decide([SystemFigures("a", 1, 1, 1), SystemFigures("b", 2, 2, 2)],
+               [[0.5, 0.7], [0.4, 0.6]], resamples=200)
+    assert d.verdict == CANT_TELL and d.queries_needed == 10
+    assert "sd" not in d.evidence and "too few queries" in d.evidence
+    assert (d.pairs[0].queries_to_separate, d.pairs[0].queries_to_confirm) == (None, None)
+    one = decide([SystemFigures("a"), SystemFigures("b")], [[0.5], [0.4]], resamples=200)
+    assert one.headline.startswith("can't tell: 1 judged query is too few to decide")
 
 
 def test_bad_input_is_refused():

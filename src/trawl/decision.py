@@ -106,8 +106,9 @@ class PairFigures:
     high: float | None = None
     separated: bool = False  # the interval excludes 0
     non_inferior: str = CANT_TELL  # yes / no / can't tell, against the margin
-    queries_to_separate: int | None = None  # None: no difference to detect
-    queries_to_confirm: int | None = None  # None: the candidate looks worse than the margin
+    # None: no difference to detect, or fewer than stats.MIN_QUERIES queries to size on
+    queries_to_separate: int | None = None
+    queries_to_confirm: int | None = None  # None also: looks worse than the margin
 
 
 @dataclass(frozen=True)
@@ -251,12 +252,14 @@ def _pairs(names: Sequence[str], scores: np.ndarray, leader: int, others: Sequen
             verdict = NO
         separated = low is not None and (low > 0 or high < 0)
         ok_sd = sd if math.isfinite(sd) else 0.0
+        sized = boot is not None  # fewer queries give no sd worth sizing a sample on
         out.append(PairFigures(
             names[j], names[leader], n, mean, ok_sd, low, high, separated, verdict,
             # differences below the margin do not matter: size for at least the margin
-            queries_needed(max(abs(mean), margin), ok_sd, alpha, power, sides=2),
+            queries_needed(max(abs(mean), margin), ok_sd, alpha, power, sides=2)
+            if sized else None,
             # one-sided at alpha/2: z_(1-alpha/2), as for the two-sided separation
-            queries_needed(mean + margin, ok_sd, alpha, power, sides=2)))
+            queries_needed(mean + margin, ok_sd, alpha, power, sides=2) if sized else None))
     return out
 
 
@@ -333,14 +336,15 @@ def _verdict(cands: Sequence[Candidate], lead: int, pairs: Sequence[PairFigures]
         return "ship", leader.name, (f"ship {leader.name}: the only system within the "
                                      f"limits ({_metric(limits)} {leader.quality:.3f})"), "", None
     n = pairs[0].n
-    if n < MIN_QUERIES:  # no interval, so nothing can be confirmed or separated
+    if n < MIN_QUERIES:  # no interval, and no spread worth sizing a sample on
         runner = pairs[0]
-        needed = max(MIN_QUERIES, runner.queries_to_separate or 0)
         return CANT_TELL, leader.name, (
-            f"can't tell: {n} judged queries are too few to decide (fewer than "
+            f"can't tell: {_queries(n)} too few to decide (fewer than "
             f"{MIN_QUERIES}); {leader.name} leads {runner.candidate} by "
-            f"{_signed(-runner.diff)} {_metric(limits)}; {_judge(needed, n)}"), (
-            f"sd of the per-query differences {runner.sd:.3f}"), needed
+            f"{_signed(-runner.diff)} {_metric(limits)}; judge at least {MIN_QUERIES} "
+            f"queries in all ({MIN_QUERIES - n} more)"), (
+            f"too few queries to estimate how much the per-query differences spread, so "
+            f"no sample size yet; {MIN_QUERIES} give an interval"), MIN_QUERIES
     fine = [p for p in pairs if p.non_inferior == YES]
     chosen = min([leader] + [by[p.candidate] for p in fine], key=_cost)
     open_ = sorted((p for p in pairs if p.non_inferior == CANT_TELL
@@ -381,6 +385,10 @@ def _verdict(cands: Sequence[Candidate], lead: int, pairs: Sequence[PairFigures]
 
 def _metric(limits: Limits) -> str:
     return limits.headline or DEFAULT_HEADLINE
+
+
+def _queries(n: int) -> str:
+    return "1 judged query is" if n == 1 else f"{n} judged queries are"
 
 
 def _judge(needed: int | None, n: int) -> str:
