@@ -47,6 +47,22 @@ def test_run_sharing_no_query_is_refused_naming_both_files(files, command):
         assert res.stderr.count("\n") == 1
 
 
+@pytest.mark.parametrize("command", [["score"], ["compare", "{d}/good.run"]])
+def test_run_without_results_is_refused_saying_so(files, command):
+    # an empty run file is a run in which nothing was found (bm25 writes one when no
+    # query shares a word with the catalogue); the message used to show an empty '()'
+    (files / "none.run").write_text("")
+    args = [command[0], str(files / "j.qrels"), *(a.format(d=files) for a in command[1:]),
+            str(files / "none.run")]
+    for extra in ([], ["--partial-overlap"]):
+        res = invoke([*args, *extra])
+        assert res.exit_code == 2
+        assert res.stderr == (f"error: {files}/none.run holds no results: nothing was found "
+                              f"for any query, so there is nothing to score against the 10 "
+                              f"queries judged in {files}/j.qrels; check the run was made "
+                              "from these queries and their catalogue\n")
+
+
 def test_run_answering_under_half_needs_the_flag(files):
     res = invoke(["score", files / "j.qrels", files / "few.run"])
     assert res.exit_code == 2

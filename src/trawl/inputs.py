@@ -56,10 +56,17 @@ def check_overlap(qrels: Qrels, qrels_path: str | Path, runs: Sequence[Run],
     catalogue does not hold."""
     for run, path in zip(runs, run_paths):
         shared = [q for q in qrels if result_count(run.results, q)]
+        answered = [q for q in run.results if result_count(run.results, q)]
+        if not answered:
+            raise UsageError(
+                f"{path} holds no results: nothing was found for any query, so there is "
+                f"nothing to score against the {_queries(len(qrels))} judged in "
+                f"{qrels_path}; check the run was made from these queries and their "
+                "catalogue")
         if not shared:
             raise UsageError(
                 f"{path} and {qrels_path} share no query: the run answers "
-                f"{_queries(len(run.results))} ({examples(list(run.results))}), the qrels "
+                f"{_queries(len(answered))} ({examples(answered)}), the qrels "
                 f"judge {_queries(len(qrels))} ({examples(list(qrels))}); score a run made "
                 "from the queries these qrels judge")
         if not allow_partial and len(shared) < PARTIAL_SHARE * len(qrels):
