@@ -74,6 +74,18 @@ def test_k_larger_than_the_catalogue_is_an_error_naming_both(files):
     assert not (files / "r.run").exists()
 
 
+def test_default_results_keep_a_smaller_catalogue_whole_as_the_help_says(files):
+    # the default of 100 used to be refused on this 5-item catalogue
+    invoke(["index", files / "cat.jsonl", "-e", "bm25", "-o", files / "idx", "-q"])
+    result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run",
+                     "--warmup", "0", "--json", "-q"])
+    assert result.exit_code == 0, result.stderr
+    assert json.loads(result.stdout)["k"] == 5
+    helptext = " ".join(invoke(["search", "--help"]).stdout.split())
+    assert ("(default: 100, or every item when the catalogue holds fewer); more than the "
+            "catalogue holds is an error naming its size.") in helptext
+
+
 def test_search_refuses_an_index_whose_catalogue_changed(files):
     invoke(["index", files / "cat.jsonl", "-e", "bm25", "-o", files / "idx", "-q"])
     (files / "cat.jsonl").write_text(CATALOGUE.replace("Late fees", "Overdue fines"))

@@ -36,6 +36,7 @@ if TYPE_CHECKING:
     from .index import Index
 
 DEFAULT_WARMUP = 5
+DEFAULT_RESULTS = 100  # results per query a search keeps unless told
 PERCENTILE_METHOD = "linear"  # numpy's default interpolation, stated in the sidecar
 SINGLE_QUERY_THREADS = 1
 
@@ -130,17 +131,19 @@ def percentiles(per_query: Sequence[float]) -> dict[str, float]:
             "p99_ms": _round(np.percentile(ms, 99)), "mean_ms": _round(ms.mean())}
 
 
-def measure_search(index: Index, queries: Mapping[str, str], k: int = 100,
+def measure_search(index: Index, queries: Mapping[str, str], k: int | None = None,
                    warmup: int = DEFAULT_WARMUP, quiet: bool = True,
                    name: str | None = None, threads: int | None = SINGLE_QUERY_THREADS
                    ) -> tuple[Run, LatencyReport]:
     """Batch run plus latency figures for ``queries`` against ``index``: single queries
     timed under ``threads`` compute threads (None: whatever is in force), the batch with
-    every core."""
+    every core. ``k`` results per query (None: ``DEFAULT_RESULTS``, or every item of a
+    smaller catalogue); a ``k`` above the catalogue's size is an error naming it."""
     if warmup < 0:
         raise UsageError(f"warm-up count {warmup} must be >= 0")
     if name is not None:
         check_run_name(name)  # before the work, not when the run is written
+    k = min(DEFAULT_RESULTS, len(index)) if k is None else k
     index.check_k(k)
     if not queries:
         raise UsageError("no queries to time")

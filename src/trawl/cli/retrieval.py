@@ -6,7 +6,7 @@ import click
 
 from ..report import text
 from . import (cache_dir_option, catalogue_option, echo_err, in_file, json_option, main,
-               out_option, quiet_option, reject, results_option, show, template_option,
+               out_option, quiet_option, reject, show, template_option,
                threads_option)
 
 ENCODER_HELP = ("Encoder: minilm, minilm-int8, minilm-onnx, minilm-onnx-int8, static:DIR, "
@@ -114,7 +114,9 @@ def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int 
 @in_file("queries")
 @out_option(required=True,
             help="TREC run to write; latency figures go to OUTPUT.latency.json.")
-@results_option
+@click.option("--results", type=click.IntRange(min=1), default=None, metavar="N",
+              help="Results kept per query (default: 100, or every item when the catalogue "
+                   "holds fewer); more than the catalogue holds is an error naming its size.")
 @catalogue_option(False, "Catalogue to check the index against (default: the file it was "
                          "built from, if it is still there).")
 @click.option("--name", default=None,
@@ -124,9 +126,9 @@ def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int 
 @threads_option
 @quiet_option
 @json_option
-def search(index: str, queries: str, output: str, results: int, catalogue: str | None,
-           name: str | None, warmup: int, threads: int | None, quiet: bool,
-           as_json: bool) -> None:
+def search(index: str, queries: str, output: str, results: int | None,
+           catalogue: str | None, name: str | None, warmup: int, threads: int | None,
+           quiet: bool, as_json: bool) -> None:
     """Search an index with every query; write a TREC run and its latency figures.
 
     Latency is encode + search of one query at a time, as a search box sends them
