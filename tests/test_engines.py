@@ -132,6 +132,21 @@ def test_cached_items_are_not_sent_to_workers(ray_runtime, tmp_path):
         assert len(cache.get(_keys(grown))) == 130
 
 
+def test_a_fully_cached_build_does_not_start_workers(ray_runtime, tmp_path):
+    from trawl.engines.ray import RayEngine
+
+    class NoCluster(RayEngine):
+        def _connect(self):
+            raise AssertionError("a build with nothing to embed joined a cluster")
+
+    cat = load_catalogue(make_catalogue(tmp_path / "cat.jsonl", range(50)))
+    build_index(cat, "minilm", tmp_path / "a", cache_dir=tmp_path / "c", quiet=True,
+                loader=FakeLoader())
+    info = build_index(cat, "minilm", tmp_path / "b", cache_dir=tmp_path / "c", quiet=True,
+                       loader=FakeLoader(), engine=NoCluster(workers=1))
+    assert (info.embedded, info.reused) == (0, 50)
+
+
 def _keys(catalogue):
     from trawl.embedcache import text_key
 

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import os
 from collections import deque
+from itertools import chain
 from collections.abc import Callable, Iterable, Iterator
 from typing import Any
 
@@ -75,12 +76,16 @@ class RayEngine:
     def encode_chunks(self, spec: EncoderSpec, encoder: Encoder,
                       chunks: Iterable[list[str]], batch_size: int) -> Iterator[np.ndarray]:
         ray = self._ray
+        chunks = iter(chunks)
+        first = next(chunks, None)
+        if first is None:  # everything came from the cache: no cluster needed
+            return
         started = self._connect()
         try:
             self.actors = self._start_actors(spec, encoder.fingerprint)
             pending: deque[Any] = deque()
             limit = IN_FLIGHT_PER_WORKER * len(self.actors)
-            for i, texts in enumerate(chunks):
+            for i, texts in enumerate(chain([first], chunks)):
                 actor = self.actors[i % len(self.actors)]
                 pending.append(actor.encode.remote(texts, batch_size))
                 if len(pending) >= limit:
