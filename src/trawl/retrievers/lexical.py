@@ -32,6 +32,14 @@ def tokenise(texts: list[str]) -> list[list[str]]:
     return bm25s.tokenize(texts, stopwords=STOPWORDS, return_ids=False, show_progress=False)
 
 
+def numbered(docs: list[list[str]]) -> tuple[list[list[int]], dict[str, int]]:
+    """Token ids from the sorted vocabulary. bm25s numbers terms in set order, which
+    follows Python's per-process string hashing, so the same catalogue would give other
+    index files on every build; sorted, a rebuild writes the same bytes (same scores)."""
+    vocab = {term: i for i, term in enumerate(sorted({t for doc in docs for t in doc}))}
+    return [[vocab[t] for t in doc] for doc in docs], vocab
+
+
 class LexicalIndex:
     """bm25s term-score matrix plus its vocabulary; scores every item for a query."""
 
@@ -43,7 +51,7 @@ class LexicalIndex:
         import bm25s
 
         model = bm25s.BM25(k1=spec.k1, b=spec.b, method="lucene")
-        model.index(tokenise(texts), show_progress=False)
+        model.index(numbered(tokenise(texts)), show_progress=False)
         return cls(model)
 
     def save(self, folder: Path) -> None:
