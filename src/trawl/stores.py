@@ -75,12 +75,15 @@ class VectorStore(Protocol):
 
 
 def write_store(vectors: np.ndarray, settings: StoreSettings, folder: Path) -> dict[str, Any]:
-    """Write the store's files into ``folder``; returns the manifest section (with bytes)."""
+    """Write the store's files into ``folder``; returns the manifest section (with bytes).
+    fp32 vectors a build already wrote into place (``index.rowfile``) are not written again."""
+    in_place = written_in_place(vectors, folder / FP32_FILE)
     vectors = np.ascontiguousarray(vectors, dtype=np.float32)
     n, dim = vectors.shape
     section: dict[str, Any] = {"kind": settings.kind, "items": n, "dim": dim}
     if settings.kind == "fp32":
-        _save_npy(folder / FP32_FILE, vectors)
+        if not in_place:
+            _save_npy(folder / FP32_FILE, vectors)
         section["files"] = [FP32_FILE]
         section["vector_bytes"] = vectors.nbytes
     elif settings.kind == "int8":
@@ -229,6 +232,12 @@ def _int8_index(vectors: np.ndarray):
 
 def _floats(queries: np.ndarray) -> np.ndarray:
     return np.ascontiguousarray(queries, dtype=np.float32)
+
+
+def written_in_place(vectors: np.ndarray, path: Path) -> bool:
+    """Whether ``vectors`` is the mapping of the file at ``path`` (nothing to write)."""
+    filename = getattr(vectors, "filename", None)
+    return filename is not None and Path(filename).resolve() == Path(path).resolve()
 
 
 def _save_npy(path: Path, array: np.ndarray) -> None:

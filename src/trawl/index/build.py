@@ -32,9 +32,10 @@ from ..files import atomic_write, check_writable
 from ..progress import progress
 from ..retrievers.loading import EncoderLoader, default_loader
 from ..retrievers.spec import EncoderSpec, as_spec
-from ..stores import StoreSettings, write_store
+from ..stores import FP32_FILE, StoreSettings, write_store
 from .manifest import (ANN_KINDS, HNSW_FILE, IDS, LEXICAL_DIR, MANIFEST, IndexInfo,
                        info_from_manifest, make_manifest, package_version, write_json)
+from .rowfile import RowFile
 
 EMBED_CHUNK = 256   # texts per cache commit: the unit an interrupted build resumes from
 CACHE_SLICE = 5000  # cached vectors fetched at a time while filling the matrix
@@ -105,8 +106,9 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
                 if hasattr(encoder, "keep_exports_in"):
                     encoder.keep_exports_in(cache_root)  # ONNX exports beside the vectors
                 fingerprint = encoder.fingerprint
+                in_place = tmp / FP32_FILE if store.kind == "fp32" and ann == "exact" else None
                 vectors, embedded = _embed(catalogue, encoder, cache_root, batch_size, quiet,
-                                           engine)
+                                           engine, in_place)
                 dim = int(vectors.shape[1])
                 ann_params, section = _write_dense(vectors, ann, hnsw or HnswParams(), store,
                                                    tmp)
@@ -136,7 +138,7 @@ def _over_window(catalogue: Catalogue, spec: EncoderSpec) -> dict[str, int] | No
 
 
 def _embed(catalogue: Catalogue, encoder, cache_root: Path, batch_size: int,
-           quiet: bool, engine: Engine) -> tuple[np.ndarray, int]:
+           quiet: bool, engine: Engine, in_place: Path | None = None) -> tuple[np.ndarray, int]:
     """Vectors in catalogue order, embedding only texts the cache lacks.
 
     Missing texts are embedded in a fixed order (length, then hash) and committed per
@@ -145,7 +147,8 @@ def _embed(catalogue: Catalogue, encoder, cache_root: Path, batch_size: int,
 
     Memory: vectors go straight into one preallocated matrix (cached ones fetched a
     slice at a time) and texts are rendered again when their chunk is embedded rather
-    than all kept, so a build holds little more than the vectors themselves.
+    than all kept, so a build holds little more than the vectors themselves; with
+    ``in_place`` the rows go straight into that .npy file instead (``rowfile``).
     """
     items, template = catalogue.items, catalogue.template
     first: dict[str, int] = {}        # text key -> first item with that text
@@ -159,7 +162,7 @@ def _embed(catalogue: Catalogue, encoder, cache_root: Path, batch_size: int,
             repeats.setdefault(key, []).append(i)
         else:
             first[key] = i
-    store = _RowStore(len(items), first, repeats, cache_root)
+    store = _RowStore(len(items), first, repeats, cache_root, in_place)
     with EmbeddingCache(cache_root, encoder.fingerprint) as cache:
         unique = list(first)
         found: set[str] = set()
@@ -186,15 +189,18 @@ class _RowStore:
     """The vector matrix of a build, filled by text key; every vector must have one size."""
 
     def __init__(self, n: int, first: Mapping[str, int], repeats: Mapping[str, list[int]],
-                 cache_root: Path) -> None:
+                 cache_root: Path, in_place: Path | None = None) -> None:
         self._n, self._first, self._repeats = n, first, repeats
         self._cache_root = cache_root
-        self._matrix: np.ndarray | None = None
+        self._in_place = in_place
+        self._matrix: np.ndarray | RowFile | None = None
 
     def fill(self, keys: Iterable[str], vectors: Iterable[np.ndarray]) -> None:
         for k, v in zip(keys, vectors):
             if self._matrix is None:
-                self._matrix = np.empty((self._n, v.shape[0]), dtype=np.float32)
+                shape = (self._n, v.shape[0])
+                self._matrix = (np.empty(shape, dtype=np.float32) if self._in_place is None
+                                else RowFile(self._in_place, shape))
             if v.shape[0] != self._matrix.shape[1]:
                 raise TrawlError(f"embedding cache {self._cache_root} holds vectors of sizes "
                                  f"{sorted({v.shape[0], self._matrix.shape[1]})} for one "
@@ -206,7 +212,7 @@ class _RowStore:
     @property
     def matrix(self) -> np.ndarray:
         assert self._matrix is not None  # a catalogue has at least one item
-        return self._matrix
+        return self._matrix if isinstance(self._matrix, np.ndarray) else self._matrix.finish()
 
 def _check_store(spec: EncoderSpec, ann: str, store: StoreSettings) -> None:
     if store.kind == "fp32":
