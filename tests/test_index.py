@@ -217,7 +217,8 @@ def test_ties_are_broken_by_item_id_descending_across_the_cut_off(tmp_path):
 
 def test_k_beyond_the_catalogue_names_both_numbers(built):
     folder, loader = built
-    with pytest.raises(UsageError, match="^k=31 results per query exceeds catalogue size 30; ask for at most 30$"):
+    with pytest.raises(UsageError, match="^31 results per query asked for, but index .* "
+                                         "holds 30 items; ask for at most 30$"):
         open_index(folder, loader=loader).search({"q": "x"}, k=31)
 
 

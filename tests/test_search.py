@@ -70,7 +70,8 @@ def test_k_larger_than_the_catalogue_is_an_error_naming_both(files):
     invoke(["index", files / "cat.jsonl", "-e", "bm25", "-o", files / "idx", "-q"])
     result = invoke(["search", files / "idx", files / "q.tsv", "-o", files / "r.run", "--results", "6"])
     assert result.exit_code == 2
-    assert result.stderr == "error: k=6 results per query exceeds catalogue size 5; ask for at most 5\n"
+    assert result.stderr == (f"error: 6 results per query asked for, but index {files}/idx "
+                             "holds 5 items; ask for at most 5\n")
     assert not (files / "r.run").exists()
 
 

@@ -169,8 +169,8 @@ class Index:
         if k < 1:
             raise UsageError(f"k={k} must be >= 1")
         if k > len(self.ids):
-            raise UsageError(f"k={k} results per query exceeds catalogue size {len(self.ids)}; "
-                             f"ask for at most {len(self.ids)}")
+            raise UsageError(f"{k} results per query asked for, but index {self.path} holds "
+                             f"{len(self.ids)} items; ask for at most {len(self.ids)}")
 
     def search(self, queries: Mapping[str, str], k: int = 100, quiet: bool = False,
                name: str | None = None) -> Run:
