@@ -15,7 +15,7 @@ from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 import pytest
 
 from trawl.catalogue import Catalogue, Item
-from trawl.synth import LlmClient, LlmError, synthesise
+from trawl.synth import LlmClient, LlmError, SynthSettings, synthesise
 from trawl.synth.llm import parse_reply
 from trawl.synth.overlap import OverlapProfile
 
@@ -143,8 +143,8 @@ def test_parse_reply_strips_list_markers_and_quotes():
 def test_llm_style_in_synthesise_and_redaction_hook(server):
     client, _ = _client(server.url, redact=lambda t: t.replace("book", "[x]"))
     cat = Catalogue("t", (ITEM,))
-    s = synthesise(cat, styles="llm", llm=client, profile=OverlapProfile((1.0,), 1.0),
-                   quiet=True)
+    s = synthesise(cat, SynthSettings(styles="llm", profile=OverlapProfile((1.0,), 1.0)),
+                   llm=client, quiet=True)
     assert list(s.queries.values())[0] in parse_reply(REPLY)
     assert s.provenance[0]["style"] == "llm"
     user = server.requests[0][2]["messages"][1]["content"]

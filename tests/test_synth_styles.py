@@ -10,15 +10,17 @@ import pytest
 from trawl.catalogue import Catalogue, Item
 from trawl.errors import InputError, UsageError
 from trawl.silver import write_silver
-from trawl.synth import read_lexicon, synthesise
+from trawl.synth import SynthSettings, read_lexicon, synthesise
 from trawl.synth.corpus import build_corpus
 from trawl.synth.grading import Draft, merge_near_duplicates
 from trawl.synth.keyword import keyword_query, salient_terms, title_phrase
 from trawl.synth.lexicon import Lexicon
 from trawl.synth.overlap import OverlapProfile
 from trawl.synth.paraphrase import Rewording, paraphrases
+from trawl.synth.text import content_words
 from trawl.synth.question import FORM, INFORMATIONAL, SCREEN, destination_kind, question_query
-from trawl.synth.compose import parse_mix, sample_items
+from trawl.synth.compose import FREE_WORDS, sample_items
+from trawl.synth.settings import parse_mix
 
 ITEMS = (
     Item("art-1", "article", "Renewing borrowed books",
@@ -107,10 +109,10 @@ def test_lexicon_errors_name_file_and_line(tmp_path):
 
 
 def test_synthesise_is_deterministic_and_seed_sensitive(tmp_path):
-    kw = dict(per_item=3, styles="keyword,question,typo", profile=NO_PROFILE, quiet=True)
-    a = synthesise(CAT, seed=1, **kw)
-    b = synthesise(CAT, seed=1, **kw)
-    c = synthesise(CAT, seed=2, **kw)
+    kw = dict(per_item=3, styles="keyword,question,typo", profile=NO_PROFILE)
+    a = synthesise(CAT, SynthSettings(seed=1, **kw), quiet=True)
+    b = synthesise(CAT, SynthSettings(seed=1, **kw), quiet=True)
+    c = synthesise(CAT, SynthSettings(seed=2, **kw), quiet=True)
     assert a.as_dict() == b.as_dict()
     assert a.queries != c.queries
     pa, pb = write_silver(tmp_path / "a", a), write_silver(tmp_path / "b", b)
@@ -120,16 +122,16 @@ def test_synthesise_is_deterministic_and_seed_sensitive(tmp_path):
 
 
 def test_silver_grades_source_2_related_1_and_provenance():
-    s = synthesise(CAT, per_item=1, styles="keyword", profile=NO_PROFILE, quiet=True,
-                   neighbours=())  # consensus neighbours are tested on their own
+    s = synthesise(CAT, SynthSettings(styles="keyword", profile=NO_PROFILE, neighbours=()),
+                   quiet=True)  # consensus neighbours are tested on their own
     for rec in s.provenance:
         grades = s.qrels[rec["qid"]]
         assert grades[rec["source"]] == 2
         assert {i for i, g in grades.items() if g == 1} == set(CAT.by_id[rec["source"]].related)
         assert rec["style"] == "keyword" and rec["generator"] == "tfidf-terms"
         assert rec["seed"] == 0 and 0 <= rec["overlap"] <= 1
-    no_related = synthesise(CAT, per_item=1, styles="keyword", profile=NO_PROFILE,
-                            related_grade=0, quiet=True)
+    no_related = synthesise(CAT, SynthSettings(styles="keyword", profile=NO_PROFILE,
+                                               related_grade=0), quiet=True)
     assert all(set(g.values()) == {2} for g in no_related.qrels.values())
 
 
@@ -145,23 +147,29 @@ def test_near_duplicates_are_merged_and_every_source_judged():
 def test_same_query_from_two_items_is_one_query_judging_both():
     twin = Catalogue("twins", (Item("a", "article", "Lost library card", "Report a lost card."),
                                Item("b", "faq", "Lost library card", "Report a lost card.")))
-    s = synthesise(twin, per_item=4, styles="keyword", profile=NO_PROFILE, seed=3, quiet=True,
-                   neighbours=())  # here every item would be the other's neighbour
+    s = synthesise(twin, SynthSettings(per_item=4, styles="keyword", profile=NO_PROFILE,
+                                       seed=3, neighbours=()),
+                   quiet=True)  # here every item would be the other's neighbour
     # two items with the same words and four draws each must produce a shared query
     assert len(set(s.queries.values())) == len(s.queries)
     both = [q for q, g in s.qrels.items() if set(g) == {"a", "b"}]
     assert both and all(set(s.qrels[q].values()) == {2} for q in both)
-    assert s.summary["merged_drafts"] == 8 - len(s.queries)
+    # every slot is a query, a merged draft, or dropped (an item's later slot takes only
+    # a wording new for that item)
+    assert s.summary["merged_drafts"] == 8 - s.summary["dropped"] - len(s.queries)
 
 
-def test_overlap_ceiling_drops_copied_wording_and_counts_it():
+def test_overlap_ceiling_drops_long_copies_and_counts_them():
     strict = OverlapProfile((0.0,), 0.5, "test")
-    s = synthesise(CAT, per_item=2, styles="keyword", profile=strict, quiet=True)
-    # keyword queries copy item words (overlap 1.0), so every slot is dropped and counted
-    assert s.queries == {}
-    assert s.summary["dropped"] == 10
-    assert {r["type"]: r["dropped"] for r in s.summary["rows"]}["article"] == \
-        {"overlap above ceiling": 4}
+    s = synthesise(CAT, SynthSettings(per_item=4, styles="keyword", profile=strict,
+                                      neighbours=()), quiet=True)
+    # keyword queries copy item words (overlap 1.0): only the short ones stay
+    assert s.queries
+    assert all(len(content_words(q)) <= FREE_WORDS for q in s.queries.values())
+    dropped = [r["dropped"] for r in s.summary["rows"] if r["dropped"]]
+    assert dropped and all(set(d) == {"overlap above ceiling"} for d in dropped)
+    slots = s.summary["queries"] + s.summary["merged_drafts"] + s.summary["dropped"]
+    assert slots == 4 * len(ITEMS)
 
 
 def test_stratified_sample_keeps_type_proportions():
@@ -195,22 +203,22 @@ def test_items_without_words_are_an_error():
 
 
 def test_styles_needing_wordnet_are_skipped_and_named():
-    s = synthesise(CAT, styles="keyword,paraphrase", wordnet=None, profile=NO_PROFILE,
-                   quiet=True)
+    s = synthesise(CAT, SynthSettings(styles="keyword,paraphrase", profile=NO_PROFILE),
+                   wordnet=None, quiet=True)
     assert set(s.skipped_styles) == {"paraphrase"}
     assert {p["style"] for p in s.provenance} == {"keyword"}
     with pytest.raises(UsageError, match="every requested style was skipped"):
-        synthesise(CAT, styles="paraphrase", wordnet=None, quiet=True)
+        synthesise(CAT, SynthSettings(styles="paraphrase"), wordnet=None, quiet=True)
     # with a lexicon, paraphrase runs without WordNet
     lex = Lexicon({("loans",): ("borrowed books",)})
-    s2 = synthesise(CAT, styles="paraphrase", wordnet=None, lexicon=lex, profile=NO_PROFILE,
-                    quiet=True)
+    s2 = synthesise(CAT, SynthSettings(styles="paraphrase", profile=NO_PROFILE), wordnet=None,
+                    lexicon=lex, quiet=True)
     assert not s2.skipped_styles
 
 
 def test_summary_rows_match_provenance():
-    s = synthesise(CAT, per_item=4, styles="keyword,question", profile=NO_PROFILE, seed=5,
-                   quiet=True)
+    s = synthesise(CAT, SynthSettings(per_item=4, styles="keyword,question", profile=NO_PROFILE,
+                                      seed=5), quiet=True)
     rows = {(r["style"], r["type"]): r for r in s.summary["rows"]}
     for (style, typ), r in rows.items():
         recs = [p for p in s.provenance if (p["style"], p["type"]) == (style, typ)]
@@ -278,6 +286,6 @@ def test_names_are_words_the_catalogue_capitalises_inside_sentences():
 
 
 def test_default_mix_falls_back_without_wordnet():
-    s = synthesise(CAT, wordnet=None, profile=NO_PROFILE, quiet=True)
+    s = synthesise(CAT, SynthSettings(profile=NO_PROFILE), wordnet=None, quiet=True)
     assert set(s.skipped_styles) == {"paraphrase"}
     assert {p["style"] for p in s.provenance} <= {"question", "keyword"}

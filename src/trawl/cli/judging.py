@@ -18,7 +18,8 @@ from . import (cache_dir_option, catalogue_option, echo_err, emit_json, flag, in
 @click.option("-n", "--per-item", type=int, default=1, show_default=True,
               help="Query slots per item (a slot may be dropped by the filters).")
 @click.option("--sample", type=int, default=None, metavar="N",
-              help="Use N items, stratified by destination type (default: every item).")
+              help="Use N items, stratified by destination type (default: every item; "
+                   "5,000 in a larger catalogue).")
 @click.option("--styles", default=None, metavar="MIX",
               help="Style mix, e.g. 'keyword,paraphrase:3' (weight 1 when omitted). Styles: "
                    "keyword, question, paraphrase, typo, llm. Default: paraphrase "
@@ -94,8 +95,8 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
     from ..catalogue import load_catalogue
     from ..queries import read_queries
     from ..silver import write_silver
-    from ..synth import read_lexicon, synthesise
-    from ..synth.compose import parse_mix
+    from ..synth import SynthSettings, read_lexicon, synthesise
+    from ..synth.settings import parse_mix
     from ..synth.neighbours import NEIGHBOUR_SPECS
     from ..synth.options import llm_client, wordnet_from
 
@@ -118,15 +119,17 @@ def synth(catalogue: str, prefix: str, per_item: int, sample: int | None, styles
                      retries=llm_retries, scrub=not no_scrub,
                      examples=tuple(read_queries(llm_examples).values()) if llm_examples
                      else ())
+    settings = SynthSettings(
+        per_item=per_item, sample=sample, styles=mix, seed=seed, max_overlap=max_overlap,
+        check_with=tuple(check_with), check_depth=check_depth or 20, typo_rate=typo_rate,
+        related_grade=related_grade,
+        neighbours=() if no_neighbours else tuple(neighbour_specs) or NEIGHBOUR_SPECS,
+        neighbour_depth=neighbour_depth)
     silver = synthesise(
-        cat, per_item=per_item, sample=sample, styles=mix, seed=seed,
-        calibrate_with=read_queries(calibrate_with) if calibrate_with else None,
-        calibration_source=calibrate_with or "", max_overlap=max_overlap,
-        check_with=check_with, check_depth=check_depth or 20,
+        cat, settings, calibrate_with=read_queries(calibrate_with) if calibrate_with else None,
+        calibration_source=calibrate_with or "",
         lexicon=read_lexicon(lexicon) if lexicon else None, wordnet=wordnet, llm=llm,
-        typo_rate=typo_rate, related_grade=related_grade,
-        neighbours=() if no_neighbours else neighbour_specs or NEIGHBOUR_SPECS,
-        neighbour_depth=neighbour_depth, cache_dir=cache_dir, quiet=quiet)
+        cache_dir=cache_dir, quiet=quiet)
     paths = write_silver(prefix, silver)
     data = {**silver.summary, "skipped_styles": dict(silver.skipped_styles),
             "scrubbed_from_prompts": llm.scrubbed if llm is not None else None,

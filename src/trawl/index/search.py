@@ -222,6 +222,16 @@ def retrieve(catalogue: Catalogue, spec: EncoderSpec | str, queries: Mapping[str
     catalogue size. The run is named after the spec unless ``name`` is given.
     """
     enc_spec = as_spec(spec)
+    index = cached_index(catalogue, enc_spec, cache_dir, quiet, loader=loader)
+    run_name = name or "_".join(str(enc_spec).split())
+    return index.search(queries, min(k, len(catalogue)), quiet=quiet, name=run_name)
+
+
+def cached_index(catalogue: Catalogue, spec: EncoderSpec | str,
+                 cache_dir: str | Path | None = None, quiet: bool = True, *,
+                 loader: EncoderLoader | None = None) -> Index:
+    """The index ``retrieve`` searches, built under ``CACHE/indexes/`` when missing."""
+    enc_spec = as_spec(spec)
     root = Path(cache_dir) if cache_dir is not None else default_cache_dir()
     key = hashlib.sha256("\0".join([catalogue.fingerprint, catalogue.template.pattern,
                                     str(enc_spec)]).encode()).hexdigest()[:16]
@@ -234,5 +244,4 @@ def retrieve(catalogue: Catalogue, spec: EncoderSpec | str, queries: Mapping[str
     except (InputError, StaleIndexError, EncoderMismatchError):
         build_index(catalogue, enc_spec, folder, cache_dir=root, quiet=quiet, loader=loader)
         index = open_index(folder, catalogue, enc_spec, loader=loader)
-    run_name = name or "_".join(str(enc_spec).split())
-    return index.search(queries, min(k, len(catalogue)), quiet=quiet, name=run_name)
+    return index

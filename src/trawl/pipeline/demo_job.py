@@ -55,7 +55,7 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
     """
     from ..distill import distill_static
     from ..silver import write_silver
-    from ..synth import synthesise
+    from ..synth import SynthSettings, synthesise
 
     say = notify or (lambda _msg: None)
     root = demo_data_root()
@@ -79,8 +79,7 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
             say(f"distil static encoder from the bundled model into {static_dir}")
             distill_static(static_dir, quiet=quiet)
     cache = cache_dir if cache_dir is not None else out / "cache"
-    # two slots per item: on this catalogue's short titles one slot leaves ~30 queries
-    silver = synthesise(cat, per_item=2, sample=sample, seed=seed, cache_dir=cache,
+    silver = synthesise(cat, SynthSettings(sample=sample, seed=seed), cache_dir=cache,
                         quiet=quiet)
     prefix = out / "silver" / "quillfern-silver"
     write_silver(prefix, silver)

@@ -9,8 +9,9 @@ from .lexicon import Lexicon, read_lexicon
 from .llm import LlmClient, LlmError
 from .overlap import OverlapProfile, overlap
 from .compose import DEFAULT_PROFILE, STYLES, SilverSet, synthesise
+from .settings import SynthSettings
 from .wordnet import load_wordnet
 
 __all__ = ["DEFAULT_PROFILE", "STYLES", "Lexicon", "LlmClient", "LlmError", "OverlapProfile",
-           "SilverSet", "calibrate_profile", "load_wordnet", "overlap", "read_lexicon",
+           "SilverSet", "SynthSettings", "calibrate_profile", "load_wordnet", "overlap", "read_lexicon",
            "synthesise"]

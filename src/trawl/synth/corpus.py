@@ -44,6 +44,7 @@ class Corpus:
     weight: Mapping[str, float] = field(default_factory=dict)  # word -> part-of-speech weight
     phrases: frozenset[tuple[str, str]] = frozenset()  # recurring two-word terms
     names: frozenset[str] = frozenset()  # words the catalogue writes capitalised (see find_names)
+    adverbs: frozenset[str] = frozenset()  # words usually adverbs ("still", "again")
 
     def known(self, word: str) -> bool:
         """Whether the catalogue uses ``word`` (by stem) anywhere."""
@@ -93,13 +94,18 @@ def build_corpus(catalogue: Catalogue, wordnet: WordNet | None = None) -> Corpus
         pairs.update(set(_adjacent_pairs(f"{it.title}\n{it.text}")))
     phrases = frozenset(p for p, n in pairs.items() if n >= PHRASE_MIN_ITEMS)
     weight: dict[str, float] = {}
+    adverbs: set[str] = set()
     if wordnet is not None:
         for w in words.values():
             for word in w.title + w.body:
                 if word not in weight:
-                    weight[word] = ACTION_WEIGHT if wordnet.usual_pos(word) in ("v", "r") else 1.0
+                    pos = wordnet.usual_pos(word)
+                    weight[word] = ACTION_WEIGHT if pos in ("v", "r") else 1.0
+                    if pos == "r":
+                        adverbs.add(word)
     return Corpus(len(catalogue), MappingProxyType(dict(df)), MappingProxyType(words),
-                  MappingProxyType(weight), phrases, find_names(catalogue))
+                  MappingProxyType(weight), phrases, find_names(catalogue),
+                  frozenset(adverbs))
 
 
 def find_names(catalogue: Catalogue) -> frozenset[str]:

@@ -29,6 +29,7 @@ class Draft:
     style: str
     generator: str
     overlap: float
+    target: float = 0.0  # the overlap the profile asked for
 
 
 @dataclass(frozen=True)
@@ -43,8 +44,16 @@ class Merged:
         return tuple(dict.fromkeys(d.source for d in self.drafts))
 
 
-def _key(text: str) -> frozenset[str]:
+def query_key(text: str) -> frozenset[str]:
+    """What near-duplicate queries share: their content words' stems."""
     return frozenset(stem(w) for w in content_words(text))
+
+
+def near_duplicate(a: frozenset[str], b: frozenset[str],
+                   threshold: float = NEAR_DUPLICATE) -> bool:
+    """Whether two query keys have Jaccard similarity of at least ``threshold``."""
+    inter = len(a & b)
+    return bool(inter) and inter / len(a | b) >= threshold
 
 
 def merge_near_duplicates(drafts: Sequence[Draft], threshold: float = NEAR_DUPLICATE
@@ -58,11 +67,10 @@ def merge_near_duplicates(drafts: Sequence[Draft], threshold: float = NEAR_DUPLI
     keys: list[frozenset[str]] = []
     by_stem: dict[str, list[int]] = {}
     for d in drafts:
-        k = _key(d.text)
+        k = query_key(d.text)
         target = None
         for g in sorted({g for s in k for g in by_stem.get(s, ())}):
-            inter = len(k & keys[g])
-            if inter and inter / len(k | keys[g]) >= threshold:
+            if near_duplicate(k, keys[g], threshold):
                 target = g
                 break
         if target is None:

@@ -12,6 +12,7 @@ import random
 
 from ..catalogue import Item
 from .corpus import Corpus
+from .text import is_content, words
 
 POOL = 8  # how many top-salience words a query may draw from
 LENGTHS = (1, 2, 3, 4)
@@ -62,6 +63,23 @@ def keyword_query(item: Item, corpus: Corpus, rng: random.Random) -> str:
 MAX_PHRASE = 12
 
 
+def _title_words(item: Item, corpus: Corpus) -> list[str]:
+    """The title's content words, once each, without adverbs ("Can I still pay cash on
+    the bus?" -> "pay cash bus": an adverb without its sentence reads as noise); "of"
+    between two of them stays ("power of attorney" is no "power attorney")."""
+    toks = words(item.title)
+    out: list[str] = []
+    for k, w in enumerate(toks):
+        if w in corpus.adverbs:
+            continue
+        if is_content(w) and w not in out:
+            out.append(w)
+        elif w == "of" and 0 < k < len(toks) - 1 and out and out[-1] != "of" \
+                and is_content(toks[k - 1]) and is_content(toks[k + 1]):
+            out.append(w)
+    return out
+
+
 def title_phrase(item: Item, corpus: Corpus, rng: random.Random) -> list[str]:
     """The title's content words in order (a run of 3 to MAX_PHRASE words around its
     most salient word when longer); salient terms when the title has no content words.
@@ -69,7 +87,7 @@ def title_phrase(item: Item, corpus: Corpus, rng: random.Random) -> list[str]:
     Titles are written for people to read, so their words hang together; a query built
     from them stays meaningful after paraphrasing, where a bag of rare words does not
     (and would hand every comparison to exact-word matching)."""
-    title = list(dict.fromkeys(corpus.words[item.id].title))
+    title = _title_words(item, corpus)
     if not title:
         return salient_terms(item, corpus, rng)
     if len(title) <= MAX_PHRASE:

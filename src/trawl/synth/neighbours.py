@@ -16,6 +16,8 @@ from __future__ import annotations
 from collections.abc import Iterable, Sequence
 from pathlib import Path
 
+import numpy as np
+
 from ..catalogue import Catalogue
 from ..errors import UsageError
 
@@ -38,8 +40,6 @@ def consensus_neighbours(catalogue: Catalogue, sources: Iterable[str],
     """For each source id, the items (in the first encoder's order) that every encoder
     in ``specs`` ranks in the source's top ``depth`` other items (default:
     ``neighbour_depth`` of the catalogue's size)."""
-    from ..index import retrieve
-
     if depth is None:
         depth = neighbour_depth(len(catalogue))
     if depth < 1:
@@ -47,19 +47,39 @@ def consensus_neighbours(catalogue: Catalogue, sources: Iterable[str],
     ids = sorted(set(sources))
     if not ids or not specs:
         return {i: () for i in ids}
-    queries = {i: _text(catalogue, i) for i in ids}
-    tops = []
-    for spec in specs:
-        run = retrieve(catalogue, spec, queries, k=depth + 1, cache_dir=cache_dir,
-                       quiet=quiet)
-        # a score of 0 or less is no match (bm25 pads its list with such items)
-        tops.append({i: [d for d, sc in run.results.get(i, ()) if d != i and sc > 0][:depth]
-                     for i in ids})
+    tops = [_nearest(catalogue, spec, ids, depth, cache_dir, quiet) for spec in specs]
     out = {}
     for i in ids:
         agreed = set.intersection(*(set(t[i]) for t in tops))
         out[i] = tuple(d for d in tops[0][i] if d in agreed)
     return out
+
+
+def _nearest(catalogue: Catalogue, spec: str, ids: list[str], depth: int,
+             cache_dir: str | Path | None, quiet: bool) -> dict[str, list[str]]:
+    """Each source's ``depth`` nearest other items by ``spec``. A dense index already
+    holds every item's vector, so its neighbours come from those (no re-encoding: on a
+    busy two-core machine, encoding 220 texts again took minutes); a lexical one is
+    searched with the source's title and text."""
+    from ..index.manifest import VECTORS
+    from ..index.search import cached_index
+
+    index = cached_index(catalogue, spec, cache_dir, quiet)
+    if (index.path / VECTORS).is_file():
+        vectors = np.load(index.path / VECTORS, allow_pickle=False)
+        row = {item: k for k, item in enumerate(index.ids)}
+        out = {}
+        for i in ids:
+            sims = vectors @ vectors[row[i]]
+            sims[row[i]] = -np.inf
+            top = np.argsort(-sims, kind="stable")[:depth]
+            out[i] = [index.ids[k] for k in top]
+        return out
+    queries = {i: _text(catalogue, i) for i in ids}
+    run = index.search(queries, min(depth + 1, len(catalogue)), quiet=quiet)
+    # a score of 0 or less is no match
+    return {i: [d for d, sc in run.results.get(i, ()) if d != i and sc > 0][:depth]
+            for i in ids}
 
 
 def _text(catalogue: Catalogue, item_id: str) -> str:

@@ -165,6 +165,9 @@ def retype(query: str, wordnet: WordNet | None, rng: random.Random,
            names: Collection[str] = ()) -> str:
     """Word forms as a person would type them: gerunds to base verbs, and the head noun
     (the last word) singular or plural afresh, independently of the item's wording.
+    (Turning only a leading gerund, so "thermal buckling" stays, read better but let
+    bm25 match more exact forms: Cranfield tau 0.60-0.80 instead of 0.80-1.00;
+    bench/results/2026-12-02-silver-shapes.md, run A7.)
 
     The item's own inflections are an accident of how it was written; exact-form
     matching should not get credit for them. Needs WordNet to know verbs and nouns.
@@ -213,6 +216,8 @@ def drop_rarest(query: str, item_stems: Collection[str], idf: Callable[[str], fl
     n = 2 if len(mine) >= DROP_TWO_AT else 1 if len(mine) >= DROP_ONE_AT else 0
     droppable = [k for k in mine if k != len(toks) - 1]
     gone = set(sorted(droppable, key=lambda k: (-idf(toks[k]), k))[:n])
+    # a joining "of" goes with either word it joined ("proof of address" -> "address")
+    gone |= {j for k in gone for j in (k - 1, k + 1) if 0 <= j < len(toks) and toks[j] == "of"}
     return " ".join(w for k, w in enumerate(toks) if k not in gone)
 
 

@@ -33,9 +33,21 @@ def words(text: str) -> list[str]:
     return [w.lower() for w in TOKEN.findall(text)]
 
 
+CLITICS = frozenset("t re ve ll d m".split())  # "haven't", "you're", "we've", "it'll", "i'm"
+PRONOUN_S = frozenset("it that there what here he she who where how".split())  # "it's"
+
+
 def is_content(word: str) -> bool:
-    """A word that carries topic: not a stop word, not a lone digit or letter."""
-    return len(word) > 1 and word not in STOPWORDS and not word.isdigit()
+    """A word that carries topic: not a stop word, contraction, lone digit or letter."""
+    return (len(word) > 1 and word not in STOPWORDS and not word.isdigit()
+            and not is_contraction(word))
+
+
+def is_contraction(word: str) -> bool:
+    """"haven't", "you're", "it's" (a function word however it is spelt); a possessive
+    such as "child's" is not one."""
+    head, sep, tail = word.replace("’", "'").partition("'")
+    return bool(sep) and (tail in CLITICS or tail == "s" and head in PRONOUN_S)
 
 
 def content_words(text: str) -> list[str]:
