@@ -203,3 +203,19 @@ def test_runs_from_files_read_latency_sidecars(tmp_path):
     assert d.notes == ("no latency or index size for half (no RUN.latency.json beside the "
                        "run): the decision weighs quality only for them",)
     assert d.candidates[0].p95_ms == 3.0 and d.candidates[1].p95_ms is None
+
+
+def test_a_system_without_cost_figures_does_not_dominate_a_measured_one():
+    """A fused run has no latency file of its own: better quality with unknown cost is not
+    'at least as cheap', so the fast lexical run stays on the frontier; the measured,
+    better one still dominates the unmeasured, worse one (weighed on quality only).
+    Invented figures (demo only)."""
+    rng = np.random.default_rng(11)
+    base = rng.uniform(0.3, 0.8, N)
+    dense, lexical, fused = base + 0.1, base - 0.05, base + 0.08
+    systems = [SystemFigures("dense", 12.0, 20.0, 700_000),
+               SystemFigures("lexical", 0.05, 0.08, 200_000),
+               SystemFigures("fused")]
+    d = decide(systems, np.stack([dense, lexical, fused]), resamples=200)
+    dominated = {c.name: c.dominated_by for c in d.candidates}
+    assert dominated == {"dense": None, "lexical": None, "fused": "dense"}

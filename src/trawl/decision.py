@@ -183,7 +183,11 @@ def _costs(c: Candidate) -> tuple[float | None, ...]:
 def dominates(a: Candidate, b: Candidate) -> bool:
     """``a`` is at least as good as ``b`` on quality and every cost both have measured,
     and better on one of them. Costs within ``SAME_SIZE`` (5%) of each other count as
-    equal: a few hundred bytes or a timing jitter do not make a system dominated."""
+    equal: a few hundred bytes or a timing jitter do not make a system dominated. A cost
+    ``b`` has measured and ``a`` has not is unknown, not cheaper: ``a`` does not dominate
+    ``b`` then (a run without latency figures never pushes a fast one off the frontier)."""
+    if any(x is None and y is not None for x, y in zip(_costs(a), _costs(b))):
+        return False
     costs = [(x, y) for x, y in zip(_costs(a), _costs(b)) if x is not None and y is not None]
     if a.quality < b.quality or any(x > y * (1 + SAME_SIZE) for x, y in costs):
         return False
