@@ -106,8 +106,10 @@ def test_intervals_are_seeded(loaded):
 
 def test_run_names_must_differ(loaded):
     qrels, runs, _ = loaded
-    with pytest.raises(UsageError, match="two runs are named 'dense'"):
+    with pytest.raises(UsageError, match="two runs are named 'dense'") as err:
         score_runs(qrels, [runs[0], Run("dense", runs[1].results)])
+    # the message is for a command-line user too: no Python function to go and call
+    assert "trawl." not in str(err.value) and "given twice" in str(err.value)
 
 
 def test_read_runs_names_by_file_when_tags_repeat(tmp_path, files):

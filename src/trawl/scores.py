@@ -78,8 +78,9 @@ def check_run_names(runs: Sequence[Run]) -> None:
     seen: set[str] = set()
     for r in runs:
         if r.name in seen:
-            raise UsageError(f"two runs are named {r.name!r}; give each run a distinct name "
-                             "(the tag column, or the file name with trawl.scores.read_runs)")
+            raise UsageError(f"two runs are named {r.name!r} (the same run file given "
+                             "twice?); give each run once, or a name of its own (one name "
+                             "per run file, in their order)")
         seen.add(r.name)
 
 
