@@ -142,10 +142,10 @@ def read_run_columns(path: str | Path) -> tuple[str, RankedColumns] | None:
         scores = np.empty(cap, dtype=np.float64)
         spans: list[tuple[int, int, Any, Any]] = []  # lines a:b, their qid and item dictionaries
         tag, n = None, 0
-        for i, block in enumerate(_blocks(path)):
+        for i, block in enumerate(blocks(path)):
             if i and bytes(block[:3]) == b"\xef\xbb\xbf":
                 return None  # pyarrow would drop it as a byte-order mark; the file keeps it
-            table = _parse(block) or _parse(_normalised(block))
+            table = _parse(block) or _parse(normalised(block))
             if table is None:
                 return None
             m = table.num_rows
@@ -170,7 +170,7 @@ def read_run_columns(path: str | Path) -> tuple[str, RankedColumns] | None:
     return None if columns is None else (tag, columns)
 
 
-def _blocks(path: Path) -> Iterator[Any]:
+def blocks(path: Path) -> Iterator[Any]:
     """The file's bytes in blocks of whole lines (views of one reused buffer)."""
     with path.open("rb") as fh:
         buffer = bytearray(SCAN_BLOCK)
@@ -198,7 +198,7 @@ def _pool() -> Any:
         return None
 
 
-def _normalised(block: Any) -> bytes:
+def normalised(block: Any) -> bytes:
     """Runs of spaces and tabs as one space, none at line ends (what str.split() sees)."""
     block = _SPACES.sub(b" ", bytes(block).replace(b"\t", b" "))
     return block.replace(b" \n", b"\n").replace(b"\n ", b"\n").strip(b" ")
@@ -219,33 +219,41 @@ def _unify(codes: np.ndarray, spans: list[tuple[int, int, Any]]) -> Any:
 
 
 def _parse(block: bytes) -> Any:
-    """pyarrow table (qid, item, score, tag) of a block of lines of six fields joined by
-    single spaces, one dictionary per column; None when a line or value is not what the
-    careful reader would read the same way."""
+    """pyarrow table (qid, item, score, tag) of a block of run lines, or None."""
+    import pyarrow as pa
+
+    table = parse_block(block, _RUN_FIELDS, {"score": pa.float64()})
+    if table is None or not _whole_ranks(table["rank"]):
+        return None
+    return table.drop_columns(["q0", "rank"])  # checked is all they are needed for
+
+
+def parse_block(block: Any, fields: Sequence[str], numbers: Mapping[str, Any]) -> Any:
+    """pyarrow table of a block of lines of ``fields`` joined by single spaces: text
+    fields as one dictionary per column, ``numbers`` (field -> pyarrow type) parsed; None
+    when a line or value is not what the careful reader would read the same way."""
     import pyarrow as pa
     from pyarrow import csv
 
     text = pa.dictionary(pa.int32(), pa.string())
+    types = {f: numbers.get(f, text) for f in fields}
     try:
         table = csv.read_csv(
             pa.BufferReader(pa.py_buffer(block)),
-            csv.ReadOptions(column_names=list(_RUN_FIELDS), block_size=PARSE_BLOCK),
+            csv.ReadOptions(column_names=list(fields), block_size=PARSE_BLOCK),
             csv.ParseOptions(delimiter=" ", quote_char=False, double_quote=False,
                              escape_char=False, ignore_empty_lines=True),
-            csv.ConvertOptions(column_types={"qid": text, "q0": text, "item": text,
-                                             "rank": text, "score": pa.float64(),
-                                             "tag": text},
-                               null_values=[], strings_can_be_null=False, check_utf8=True),
+            csv.ConvertOptions(column_types=types, null_values=[], strings_can_be_null=False,
+                               check_utf8=True),
             memory_pool=_pool())
     except pa.ArrowInvalid:
         return None  # a field count, number or encoding the careful reader will locate
     table = table.unify_dictionaries()
-    if not _whole_ranks(table["rank"]):
-        return None
-    for name in ("qid", "q0", "item", "tag"):
-        if table.num_rows and not _plain_words(table[name].chunk(0).dictionary):
+    for name in fields:
+        if name not in numbers and table.num_rows \
+                and not _plain_words(table[name].chunk(0).dictionary):
             return None
-    return table.drop_columns(["q0", "rank"])  # checked is all they are needed for
+    return table
 
 
 def _whole_ranks(column: Any) -> bool:

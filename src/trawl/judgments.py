@@ -16,7 +16,15 @@ Qrels = dict[str, dict[str, int]]  # qid -> item id -> grade
 
 
 def read_qrels(path: str | Path) -> Qrels:
-    """Read TREC qrels; a repeated (qid, item) pair is an error naming both lines."""
+    """Read TREC qrels; a repeated (qid, item) pair is an error naming both lines.
+
+    Plainly written files go through the columnar parser (``qrelcolumns``); anything
+    else, and every error, is read line by line here."""
+    from .qrelcolumns import read_qrels_columns
+
+    fast = read_qrels_columns(path)
+    if fast is not None:
+        return fast
     text = read_text(path, "qrels file")
     out: Qrels = {}
     first: dict[tuple[str, str], int] = {}
