@@ -24,3 +24,52 @@ def test_help_shows_an_example(path):
     assert "Example:" in result.stdout
     example = result.stdout.split("Example:", 1)[1]
     assert "trawl " in example
+
+
+# Options whose value is a file the command writes (any path will do there).
+_WRITES = {"-o", "--output", "--csv", "--per-query"}
+_FILE_ENDINGS = (".jsonl", ".csv", ".tsv", ".qrels", ".run", ".xlsx", ".parquet", ".json")
+
+
+def _example_lines(text: str) -> list[str]:
+    block = text.split("Example:", 1)[1].split("\nOptions:", 1)[0].replace("\\\n", " ")
+    return [" ".join(line.split()) for line in block.splitlines()
+            if line.strip().startswith("trawl ")]
+
+
+def _read_paths(line: str) -> list[str]:
+    """Arguments of an example line that name a file or folder the command reads."""
+    words = line.split()
+    out = []
+    for before, word in zip(words, words[1:]):
+        if before in _WRITES or word.startswith("-"):
+            continue
+        if word.endswith(_FILE_ENDINGS) or "/" in word and ":" not in word:
+            out.append(word)
+    return out
+
+
+def _made_by_the_tour() -> set[str]:
+    """Paths the README tour names or writes (``-o silver/qf`` writes silver/qf.*)."""
+    from .test_readme_tour import tour_commands
+
+    named, prefixes = set(), []
+    for line in tour_commands():
+        words = line.split()
+        named.update(words)
+        prefixes += [w for before, w in zip(words, words[1:]) if before in _WRITES]
+    return named | {p + ext for p in prefixes for ext in (".qrels", ".queries.tsv", ".jsonl")}
+
+
+@pytest.mark.parametrize("path", list(_commands(main)), ids=" ".join)
+def test_an_example_runs_on_the_bundled_files_after_the_tour(path):
+    """A newcomer copies the first example that looks like their checkout: at least one
+    example of every command reads only files of the checkout or ones the README tour
+    made, so it runs as written (placeholders such as items.jsonl are for the others)."""
+    from .conftest import ROOT
+
+    known = _made_by_the_tour()
+    lines = _example_lines(invoke(list(path) + ["--help"]).stdout)
+    runnable = [line for line in lines
+                if all(p in known or (ROOT / p).exists() for p in _read_paths(line))]
+    assert runnable, f"no example of '{' '.join(path)}' runs after the tour: {lines}"

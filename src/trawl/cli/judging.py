@@ -148,7 +148,8 @@ def review() -> None:
 
     \b
     Example:
-      trawl review export silver.qrels silver.queries.tsv -c corpora/quillfern.jsonl -o review.csv
+      trawl review export silver/qf.qrels silver/qf.queries.tsv -c corpora/quillfern.jsonl \\
+          -o review.csv
       trawl review import review.csv -c corpora/quillfern.jsonl -o reviewed.qrels
     """
 
@@ -195,8 +196,10 @@ def review_export(qrels: str, queries: str, catalogue: str, output: str,
 
     \b
     Example:
-      trawl review export silver.qrels silver.queries.tsv -c corpora/quillfern.jsonl \\
-          -o review.csv --runs minilm.run --runs bm25.run --sample 40 --reviewers 2
+      trawl review export silver/qf.qrels silver/qf.queries.tsv -c corpora/quillfern.jsonl \\
+          -o review.csv --runs runs/silver-minilm.run --runs runs/silver-bm25.run --sample 40
+      trawl review export silver.qrels silver.queries.tsv -c items.jsonl -o sheet.xlsx \\
+          --sample 60 --reviewers 2
     """
     from ..catalogue import load_catalogue
     from ..judgments import read_qrels
@@ -244,8 +247,9 @@ def review_import(sheets: tuple[str, ...], catalogue: str, output: str, base: st
 
     \b
     Example:
-      trawl review import review-1.csv review-2.csv -c corpora/quillfern.jsonl \\
-          --base silver.qrels -o reviewed.qrels
+      trawl review import review.csv -c corpora/quillfern.jsonl --base silver/qf.qrels \\
+          -o reviewed.qrels
+      trawl review import sheet-1.xlsx sheet-2.xlsx -c items.jsonl -o reviewed.qrels
     """
     from ..catalogue import load_catalogue
     from ..judgments import read_qrels, write_qrels
@@ -286,7 +290,9 @@ def agree(qrels_a: str, qrels_b: str, runs: tuple[str, ...], names: tuple[str, .
 
     \b
     Example:
-      trawl agree silver.qrels qrels/quillfern-gold.qrels minilm.run bm25.run fused.run
+      trawl agree silver/qf.qrels reviewed.qrels runs/silver-minilm.run runs/silver-bm25.run \\
+          runs/silver-static.run
+      trawl agree silver.qrels human.qrels a.run b.run c.run -m mrr@10
     """
     from ..agreement import agree as agree_sets
     from ..inputs import read_agreement_inputs

@@ -67,7 +67,8 @@ def score(qrels: str, runs: tuple[str, ...], names: tuple[str, ...], catalogue: 
 
     \b
     Example:
-      trawl score qrels/quillfern-gold.qrels minilm.run bm25.run -c corpora/quillfern.jsonl
+      trawl score qrels/quillfern-gold.qrels runs/minilm.run runs/bm25.run \\
+          -c corpora/quillfern.jsonl
       trawl score silver.qrels minilm.run -m ndcg@10 -m hit@1 --per-query scores.csv
     """
     from ..files import check_writable
@@ -135,7 +136,7 @@ def compare(qrels: str, runs: tuple[str, ...], baseline: str | None, names: tupl
 
     \b
     Example:
-      trawl compare qrels/quillfern-gold.qrels bm25.run minilm.run fused.run
+      trawl compare qrels/quillfern-gold.qrels runs/bm25.run runs/minilm.run runs/hybrid.run
       trawl compare silver.qrels a.run b.run --baseline b.run -c items.jsonl --long
     """
     from ..compare import CSV_COLUMNS, compare_runs
@@ -193,7 +194,7 @@ def misses(qrels: str, run: str, catalogue: str, cutoff: int, worst: int,
 
     \b
     Example:
-      trawl misses qrels/quillfern-gold.qrels minilm.run -c corpora/quillfern.jsonl
+      trawl misses qrels/quillfern-gold.qrels runs/minilm.run -c corpora/quillfern.jsonl
       trawl misses silver.qrels bm25.run -c items.jsonl --cutoff 5 --queries silver.queries.tsv
     """
     from ..inputs import read_scoring_inputs
