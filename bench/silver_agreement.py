@@ -135,7 +135,8 @@ def table(rows: dict[str, tuple[int, list[SeedResult]]], seeds: list[int]) -> st
                      f"| {cov} | {min(taus):.2f} / {sum(taus) / len(taus):.2f} "
                      f"| {min(rs):.2f} / {sum(rs) / len(rs):.2f} "
                      f"| {sum(r.per_minute for r in res) / len(res):,.0f} |")
-    met = all(min(r.tau for r in res) >= GOAL_TAU and min(r.r for r in res) >= GOAL_R
+    # tau over five systems moves in steps of 0.2, and 0.8 comes out as 0.7999...
+    met = all(min(r.tau for r in res) >= GOAL_TAU - 1e-9 and min(r.r for r in res) >= GOAL_R
               for _, res in rows.values())
     lines.append(f"\nSeeds {', '.join(map(str, seeds))}; goal tau >= {GOAL_TAU} and "
                  f"r >= {GOAL_R} on every seed: {'met' if met else 'NOT met'}. "

@@ -54,7 +54,7 @@ def test_silver_ranks_systems_as_cranfield_judges_do(setup, seed, record_propert
     tau, r = kendalltau(human, silver).statistic, pearsonr(human, silver).statistic
     record_property("silver_queries", len(silver_set.queries))
     record_property("tau_r", (round(tau, 2), round(r, 2)))
-    assert tau >= 0.8 and r >= 0.9, (human, silver)
+    assert tau >= 0.8 - 1e-9 and r >= 0.9, (human, silver)  # 5 systems: tau in steps of 0.2
     # Coverage: the goal is 70% of the items; on Cranfield's long titles only about a
     # third yield a query short or reworded enough (docs/silver-quality.md). This guards
     # that third: before the ceiling spared short queries, 146 of 1,400 items had one.

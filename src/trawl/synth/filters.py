@@ -3,7 +3,7 @@
 A query that no reasonable system can bring back to its source is often a bad query
 (the wording drifted off topic). The check is optional and off by default: a single
 checker favours systems like itself, so when used it should fuse several different
-encoders (``--check-with minilm --check-with bm25``) and look deep (top 20).
+encoders (``check_with=("minilm", "bm25")``) and look deep (top 20).
 """
 
 from __future__ import annotations

@@ -47,7 +47,7 @@ class LlmError(TrawlError):
 
 
 def keep_text(text: str) -> str:
-    """The ``redact`` hook that sends text unchanged (``--no-scrub``)."""
+    """The ``redact`` hook that sends text unchanged (scrubbing turned off)."""
     return text
 
 
