@@ -237,7 +237,7 @@ def test_agree_cli_table_and_json(tmp_path):
     assert "Spearman's rho   -1.000  [-1.000, -1.000]" in lines
     assert "(95% bootstrap interval, 50 resamples over queries, seed 0)" in lines
     assert "1 pair(s) change order (better under A, worse under B):" in lines
-    assert any(line.startswith("  sys0 vs sys1: +") for line in lines)
+    assert any(line.startswith("  sys0 vs sys1: ahead by ") for line in lines)
     assert "with 2 systems a rank correlation" in res.stdout
     assert "estimates" in lines[-1]
     js = json.loads(invoke(["agree", tmp_path / "a.qrels", tmp_path / "b.qrels", *paths,

@@ -259,3 +259,17 @@ def test_axis_ticks():
     assert nice_ticks(0.31, 0.72) == [0.4, 0.5, 0.6, 0.7]
     assert nice_ticks(0, 1) == [0, 0.2, 0.4, 0.6, 0.8, 1.0]
     assert log_ticks(0.03, 12) == [0.05, 0.1, 0.2, 0.5, 1, 2, 5, 10]
+
+
+def test_a_flip_by_a_rounding_hair_does_not_read_as_a_tie():
+    """'ahead under silver by 0.009 but behind under gold by 0.000' contradicted itself
+    (the demo's gold scores differed by 0.0001); the gap shows as 'less than 0.001'."""
+    bundle = copy.deepcopy(sample_bundle())
+    bundle["agreement"]["flips"].append({"first": "minilm", "second": "static",
+                                         "diff_a": 0.009, "diff_b": -0.0001})
+    text = " ".join(" ".join(_parse(render_html(bundle)).text).split())
+    assert ("minilm is ahead of static under silver set by 0.009 but behind under gold set "
+            "by less than 0.001") in text
+    assert "minilm is ahead of bm25 under silver set by 0.140 but behind under gold set " \
+           "by 0.020" in text
+    assert "by 0.000" not in text

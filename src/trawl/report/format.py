@@ -22,6 +22,18 @@ def num(v: float | None, digits: int = 3) -> str:
     return MISSING if _missing(v) else f"{v:.{digits}f}"
 
 
+def gap(v: float | None, digits: int = 3) -> str:
+    """How far apart two scores are, unsigned: a gap that rounds to zero but is not zero
+    reads 'less than 0.001', never 'by 0.000' (which reads as a tie and contradicts the
+    order it explains)."""
+    if _missing(v):
+        return MISSING
+    step = 10.0 ** -digits
+    if 0 < abs(v) < step / 2:
+        return f"less than {step:.{digits}f}"
+    return f"{abs(v):.{digits}f}"
+
+
 def signed(v: float | None, digits: int = 3) -> str:
     return MISSING if _missing(v) else f"{v:+.{digits}f}"
 

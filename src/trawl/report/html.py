@@ -424,8 +424,8 @@ def _agreement(ag: Mapping[str, Any], number: int, looks) -> Markup:
                  f" (95% interval {fmt.interval(rho['low'], rho['high'], 2)}), over "
                  f"{len(ag['systems'])} systems; {_shared(ag)}")
     flips = (el("ul", None, *(el("li", None, f"{f['first']} is ahead of {f['second']} under {a} "
-                                  f"by {fmt.num(f['diff_a'])} but behind under {b} by "
-                                  f"{fmt.num(-f['diff_b'])}") for f in ag["flips"]))
+                                  f"by {fmt.gap(f['diff_a'])} but behind under {b} by "
+                                  f"{fmt.gap(f['diff_b'])}") for f in ag["flips"]))
              if ag["flips"] else el("p", None, "No pair of systems changes order."))
     return _section("agreement", number, f"Agreement: {a} against {b}",
                     el("p", {"class_": "intro"}, "Do the two judgment sets rank the systems "

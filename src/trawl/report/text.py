@@ -243,8 +243,8 @@ def agreement(d: Mapping[str, Any]) -> str:
         out.append("no pair of systems changes order between A and B")
     else:
         out.append(f"{len(d['flips'])} pair(s) change order (better under A, worse under B):")
-        out += [f"  {f['first']} vs {f['second']}: {f['diff_a']:+.3f} under A, "
-                f"{f['diff_b']:+.3f} under B" for f in d["flips"]]
+        out += [f"  {f['first']} vs {f['second']}: ahead by {fmt.gap(f['diff_a'])} under A, "
+                f"behind by {fmt.gap(f['diff_b'])} under B" for f in d["flips"]]
     out.append("Scores under silver (machine-made) judgments are estimates; tau and rho say "
                "how far they can be trusted to choose between systems.")
     return "\n".join(out)
