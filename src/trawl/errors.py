@@ -45,3 +45,19 @@ class StaleIndexError(TrawlError):
 
 class EncoderMismatchError(TrawlError):
     """An index is used with an encoder other than the one it was built with."""
+
+
+def looks_like(line: str) -> str:
+    """What another of trawl's text files a line resembles, as a clause to add to a
+    message ('' when none): the usual mistake is files given in the wrong order."""
+    parts = line.split()
+    if len(parts) == 6 and parts[1] == "Q0":
+        return ("; this line looks like a TREC run (qid Q0 item_id rank score tag): check "
+                "the order of the files")
+    if len(parts) == 4 and parts[1] == "0" and parts[3].lstrip("-").isdigit():
+        return ("; this line looks like qrels (qid 0 item_id grade): check the order of the "
+                "files")
+    if "\t" in line.strip("\n") and len(line.split("\t")) == 2 and len(parts) > 1:
+        return ("; this line looks like a queries file (qid<TAB>text): check the order of "
+                "the files")
+    return ""

@@ -8,7 +8,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from pathlib import Path
 
-from .errors import InputError
+from .errors import InputError, looks_like
 from .files import atomic_write, read_text
 from .numbers import WHOLE_FORMS, parse_whole
 
@@ -35,8 +35,8 @@ def read_qrels(path: str | Path) -> Qrels:
         if "\x00" in line:
             raise InputError(path, "NUL byte in line; the file is binary or corrupt", line=n)
         if len(parts) != 4:
-            raise InputError(path, f"expected 4 fields 'qid 0 item_id grade', got {len(parts)}",
-                             line=n)
+            raise InputError(path, f"expected 4 fields 'qid 0 item_id grade', got {len(parts)}"
+                             f"{looks_like(line)}", line=n)
         qid, _, item, grade_s = parts
         grade = parse_whole(grade_s)
         if grade is None:

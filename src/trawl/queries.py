@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from pathlib import Path
 
-from .errors import InputError
+from .errors import InputError, looks_like
 from .files import atomic_write, read_text
 from .ids import is_valid_id
 from .lookalike import has_visible, visible
@@ -25,7 +25,8 @@ def read_queries(path: str | Path) -> dict[str, str]:
         if "\x00" in line:
             raise InputError(path, "NUL byte in line; the file is binary or corrupt", line=n)
         if "\t" not in line:
-            raise InputError(path, "expected 'qid<TAB>text', found no tab", line=n)
+            raise InputError(path, f"expected 'qid<TAB>text', found no tab{looks_like(line)}",
+                             line=n)
         qid, q = line.split("\t", 1)
         qid = qid.strip()
         if not qid:

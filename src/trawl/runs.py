@@ -18,7 +18,7 @@ from dataclasses import dataclass
 from operator import itemgetter
 from pathlib import Path
 
-from .errors import InputError, UsageError
+from .errors import InputError, UsageError, looks_like
 from .ids import is_valid_id
 from .files import atomic_write, read_text
 from .numbers import SCORE_FORMS, WHOLE_FORMS, parse_score, parse_whole
@@ -82,7 +82,7 @@ def _read_lines(path: str | Path, text: str, name: str | None) -> Run:
             raise InputError(path, "NUL byte in line; the file is binary or corrupt", line=n)
         if len(parts) != 6:
             raise InputError(path, f"expected 6 fields 'qid Q0 item_id rank score tag', "
-                             f"got {len(parts)}", line=n)
+                             f"got {len(parts)}{looks_like(line)}", line=n)
         qid, _, item, rank_s, score_s, t = parts
         score = parse_score(score_s)
         if score is None:
