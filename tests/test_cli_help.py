@@ -73,3 +73,29 @@ def test_an_example_runs_on_the_bundled_files_after_the_tour(path):
     runnable = [line for line in lines
                 if all(p in known or (ROOT / p).exists() for p in _read_paths(line))]
     assert runnable, f"no example of '{' '.join(path)}' runs after the tour: {lines}"
+
+
+@pytest.mark.parametrize("args, says", [
+    (["misses", "a.qrels", "b.run"], "error: Missing option '-c' / '--catalogue'; see "
+                                     "'trawl misses --help'"),
+    (["misses", "a.qrels", "b.run", "-c", "c.jsonl", "--cutoff", "0"],
+     "error: Invalid value for '--cutoff': 0 is not in the range x>=1; see "
+     "'trawl misses --help'"),
+    (["score", "--metric"], "error: Option '--metric' requires an argument; see "
+                            "'trawl score --help'"),
+    (["review", "import"], "error: Missing argument 'SHEETS...'; see "
+                           "'trawl review import --help'"),
+    (["scroe"], "error: No such command 'scroe'"),
+])
+def test_option_mistakes_are_one_error_line_with_exit_2(args, says):
+    """The project's rule for user errors (one 'error:' line, exit 2) holds for mistakes
+    click finds while parsing, not only for the library's; each points to the help."""
+    result = invoke(args, prog_name="trawl")
+    assert result.exit_code == 2
+    assert result.stderr.startswith(says) and result.stderr.count("\n") == 1
+    assert "Usage:" not in result.stderr
+
+
+def test_a_group_alone_still_shows_its_help():
+    result = invoke(["review"])
+    assert "Usage:" in result.output and "export" in result.output

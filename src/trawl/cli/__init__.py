@@ -18,13 +18,22 @@ from ..errors import TrawlError, UsageError
 
 
 class _Group(click.Group):
-    """Turns library errors into one-line messages with exit code 2."""
+    """Turns library errors, and click's own complaints about a command's options and
+    arguments, into one-line messages with exit code 2."""
 
     def invoke(self, ctx: click.Context) -> Any:
         try:
             return super().invoke(ctx)
         except TrawlError as exc:
             click.echo(f"error: {exc}", err=True)
+            ctx.exit(2)
+        except click.exceptions.NoArgsIsHelpError:  # `trawl review` alone: its help
+            raise
+        except click.UsageError as exc:  # a missing option, a value out of range, ...
+            where = (exc.ctx.command_path if exc.ctx is not None else
+                     " ".join(filter(None, (ctx.command_path, ctx.invoked_subcommand))))
+            click.echo(f"error: {exc.format_message().rstrip('.')}; see "
+                       f"'{where} --help'", err=True)
             ctx.exit(2)
 
 
