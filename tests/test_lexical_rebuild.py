@@ -66,3 +66,19 @@ def test_sorted_numbering_scores_as_bm25s_own_numbering():
     want = np.stack([ref.get_scores(t) for t in tokenise(queries)])
     got = LexicalIndex.build(texts, parse_spec("bm25")).scores(queries)
     np.testing.assert_array_equal(got, want.astype(np.float32))
+
+
+def test_building_and_searching_log_nothing_below_warning(tmp_path, caplog):
+    """bm25s sets its own logger to DEBUG; in a process where anything configures logging
+    (the demo's ONNX export does), 'DEBUG:bm25s:Building index from IDs' reached the
+    terminal. Only warnings and errors may pass."""
+    import logging
+
+    caplog.set_level(logging.DEBUG)  # as a process with logging configured at DEBUG
+    spec = parse_spec("bm25")
+    texts = ["renew a loan online", "reserve a study room", "pay late fees"]
+    index = LexicalIndex.build(texts, spec)
+    index.save(tmp_path)
+    LexicalIndex.load(tmp_path).scores(["late fees"])
+    assert [r for r in caplog.records
+            if r.name.startswith("bm25s") and r.levelno < logging.WARNING] == []

@@ -26,9 +26,20 @@ TOKENISER = {"pattern": r"(?u)\b\w\w+\b", "lower": True, "stopwords": "bm25s eng
              "stemmer": None}
 
 
-def tokenise(texts: list[str]) -> list[list[str]]:
+def _bm25s() -> Any:
+    """bm25s, with its logger back at WARNING: the library sets it to DEBUG, so once
+    anything in the process configures logging ('Building index from IDs') reaches the
+    user's terminal."""
+    import logging
+
     import bm25s
 
+    logging.getLogger("bm25s").setLevel(logging.WARNING)
+    return bm25s
+
+
+def tokenise(texts: list[str]) -> list[list[str]]:
+    bm25s = _bm25s()
     return bm25s.tokenize(texts, stopwords=STOPWORDS, return_ids=False, show_progress=False)
 
 
@@ -48,8 +59,7 @@ class LexicalIndex:
 
     @classmethod
     def build(cls, texts: list[str], spec: EncoderSpec) -> LexicalIndex:
-        import bm25s
-
+        bm25s = _bm25s()
         model = bm25s.BM25(k1=spec.k1, b=spec.b, method="lucene")
         model.index(numbered(tokenise(texts)), show_progress=False)
         return cls(model)
@@ -59,8 +69,7 @@ class LexicalIndex:
 
     @classmethod
     def load(cls, folder: Path) -> LexicalIndex:
-        import bm25s
-
+        bm25s = _bm25s()
         return cls(bm25s.BM25.load(str(folder)))
 
     def scores(self, queries: list[str]) -> np.ndarray:
