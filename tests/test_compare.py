@@ -218,3 +218,23 @@ def test_compare_command_needs_two_runs(clear_difference):
     res = invoke(["compare", d / "c.qrels", d / "worse.run"])
     assert res.exit_code == 2
     assert res.stderr.startswith("error: compare needs at least two RUN files")
+
+
+def test_an_evaluation_warns_once_per_group_with_too_few_queries(files):
+    """eval's warning list held 'type 'form': only 5 queries (fewer than 10): no bootstrap
+    interval' from scoring and again, longer, from the comparison: each group once."""
+    from trawl.pipeline.assembly import merged_warnings
+    from trawl.scores import score_runs
+
+    qrels, cat = read_qrels(files["qrels"]), load_catalogue(files["catalogue"])
+    runs = [read_run(files["dense"]), read_run(files["lexical"])]
+    scoring = score_runs(qrels, runs, ["hit@1"], cat, resamples=200).warnings
+    comparing = compare_runs(qrels, runs, ["hit@1"], catalogue=cat, resamples=200).warnings
+    assert any("type 'screen': only 3 queries" in w for w in scoring)  # said twice before
+    merged = merged_warnings(scoring, comparing)
+    for group in ("all queries", "type 'article'", "type 'faq'", "type 'form'",
+                  "type 'screen'"):
+        assert sum(w.startswith(f"{group}: only ") for w in merged) == 1, group
+    others = [w for w in list(scoring) + list(comparing) if "too few queries" not in w]
+    assert others and all(w in merged for w in others)  # nothing else is lost
+    assert len(merged) == len(set(merged))

@@ -48,6 +48,20 @@ def latency_entry(figures: Mapping[str, Any]) -> Latency:
                    busy=figures.get("busy"))
 
 
+def merged_warnings(scoring: Sequence[str], comparing: Sequence[str]) -> list[str]:
+    """Scoring's and comparing's warnings, each said once: a group with too few queries
+    for an interval is warned about by both ('type 'form': only 5 queries ...'); the
+    comparison's warning says all the scoring one does, so the scoring one is dropped."""
+    from ..stats import TOO_FEW
+
+    def group(w: str) -> str:
+        return w.split(" (fewer than", 1)[0]
+
+    covered = {group(w) for w in comparing if TOO_FEW in w}
+    kept = [w for w in scoring if not (TOO_FEW in w and group(w) in covered)]
+    return list(dict.fromkeys(kept + list(comparing)))
+
+
 def evaluation_entry(ld: LoadedSet, names: Sequence[str], baseline: str,
                      latency: Mapping[str, Mapping[str, Any]], scores, comparison,
                      misses) -> Evaluation:
@@ -56,8 +70,7 @@ def evaluation_entry(ld: LoadedSet, names: Sequence[str], baseline: str,
     from ..destinations import TYPE_RULE, type_tally
 
     js = ld.spec
-    warnings = list(dict.fromkeys(
-        list(scores.warnings) + (list(comparison.warnings) if comparison else [])))
+    warnings = merged_warnings(scores.warnings, comparison.warnings if comparison else ())
     base_misses = next(m for m in misses if m.run == baseline)
     tables = _typed(Evaluation, {
         "scores": scores.score_rows(),
