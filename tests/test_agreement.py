@@ -256,3 +256,32 @@ def test_agree_cli_bad_metric_exits_2(tmp_path):
     res = invoke(["agree", tmp_path / "a.qrels", tmp_path / "a.qrels", *paths, "-m", "nope"])
     assert res.exit_code == 2
     assert res.stderr.startswith("error: ")
+
+
+def test_an_unreviewed_copy_is_named_not_taken_for_agreement(tmp_path):
+    """The README tour imports a review sheet nobody has filled: every row keeps its
+    silver grade, and agree printed tau 1.000 as if people had confirmed silver. A set
+    that judges every shared query exactly like the other is called out."""
+    a = _qrels(20)
+    write_qrels(tmp_path / "a.qrels", a)
+    write_qrels(tmp_path / "copy.qrels", {q: a[q] for q in list(a)[:12]})
+    changed = {q: dict(items) for q, items in list(a.items())[:12]}
+    first = next(iter(changed))
+    changed[first] = {i: 1 for i in ITEMS if i not in a[first]}  # one query re-judged
+    write_qrels(tmp_path / "changed.qrels", changed)
+    paths = []
+    for r in _systems(a, noises=(0.2, 5.0)):
+        write_run(tmp_path / f"{r.name}.run", r)
+        paths.append(tmp_path / f"{r.name}.run")
+    copy = invoke(["agree", tmp_path / "a.qrels", tmp_path / "copy.qrels", *paths,
+                   "--resamples", "0"])
+    assert copy.exit_code == 0, copy.output
+    assert copy.stdout.splitlines()[1].startswith(
+        "warning: A and B judge all 12 shared queries item for item alike")
+    js = json.loads(invoke(["agree", tmp_path / "a.qrels", tmp_path / "copy.qrels", *paths,
+                            "--resamples", "0", "--json"]).stdout)
+    assert (js["shared_queries"], js["identical_queries"]) == (12, 12)
+    other = invoke(["agree", tmp_path / "a.qrels", tmp_path / "changed.qrels", *paths,
+                    "--resamples", "0"])
+    assert other.exit_code == 0, other.output
+    assert "item for item alike" not in other.stdout

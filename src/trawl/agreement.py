@@ -74,11 +74,12 @@ class Agreement:
     seed: int
     confidence: float
     note: str | None = None  # stats.TOO_FEW when a set has too few queries for an interval
+    identical: int = 0  # shared queries both sets judge exactly alike (item by item)
 
     def as_dict(self) -> dict[str, Any]:
         return {
             "metric": self.metric, "queries_a": self.queries_a, "queries_b": self.queries_b,
-            "shared_queries": self.shared,
+            "shared_queries": self.shared, "identical_queries": self.identical,
             "systems": [{"run": s.run, "score_a": s.score_a, "score_b": s.score_b,
                          "rank_a": s.rank_a, "rank_b": s.rank_b} for s in self.systems],
             "kendall_tau_b": self.tau.as_dict(), "spearman_rho": self.rho.as_dict(),
@@ -163,9 +164,10 @@ def agree(qrels_a: Qrels, qrels_b: Qrels, runs: Sequence[Run], metric: str = "nd
             sign = 1 if da > 0 else -1
             flips.append(Flip(names[first], names[second], float(sign * da), float(sign * db)))
     flips.sort(key=lambda f: (-(f.diff_a - f.diff_b), f.first, f.second))
+    identical = sum(1 for q in shared if qrels_a[q] == qrels_b[q])
     return Agreement(column, len(qids_a), len(qids_b), len(shared), systems,
                      Correlation(tau, *tau_ci), Correlation(rho, *rho_ci), tuple(flips),
-                     resamples, seed, confidence, note)
+                     resamples, seed, confidence, note, identical)
 
 
 def _replicate_means(scores: np.ndarray, shared: np.ndarray, only: np.ndarray) -> np.ndarray:

@@ -222,6 +222,11 @@ def agreement(d: Mapping[str, Any]) -> str:
     out = [f"{d['metric']} under A = {d['qrels_a']} ({d['queries_a']} queries) and "
            f"B = {d['qrels_b']} ({d['queries_b']} queries); {d['shared_queries']} queries "
            "in both"]
+    if d["shared_queries"] and d.get("identical_queries") == d["shared_queries"]:
+        out.append(f"warning: A and B judge all {d['shared_queries']} shared queries item for "
+                   "item alike, so their agreement is certain and says nothing: is B an "
+                   "unreviewed copy of A? (a review sheet's rows without a verdict keep "
+                   "A's grade)")
     out.append(plain_table([[s["run"], s["score_a"], f"{s['rank_a']:g}", s["score_b"],
                              f"{s['rank_b']:g}"] for s in d["systems"]],
                            ["run", "A", "rank A", "B", "rank B"]))
