@@ -109,7 +109,7 @@ class _Collector(HTMLParser):
     def handle_starttag(self, tag, attrs):
         a = dict(attrs)
         self.tags.append((tag, a))
-        if tag not in ("meta", "br", "hr", "img", "link", "input", "col"):
+        if tag not in ("meta", "br", "hr", "img", "link", "input", "col", "wbr"):
             self.stack.append(tag)
         if "data-cell" in a:
             self._cell, self._buf = a["data-cell"], []
@@ -273,3 +273,19 @@ def test_a_flip_by_a_rounding_hair_does_not_read_as_a_tie():
     assert "minilm is ahead of bm25 under silver set by 0.140 but behind under gold set " \
            "by 0.020" in text
     assert "by 0.000" not in text
+
+
+def test_column_headers_wrap_between_name_parts_not_inside_words():
+    """At 1400 px the per-type table's headers read 'minil m', 'stati c', 'bm2 5': headers
+    could break anywhere. They now break only after . - _ @ + / (a <wbr> there), and the
+    style no longer lets a header break inside a word."""
+    from trawl.report.markup import breakable
+
+    assert breakable("minilm.vectors-binary") == "minilm.<wbr>vectors-<wbr>binary"
+    assert breakable("ndcg@10") == "ndcg@<wbr>10"
+    assert breakable("a<b") == "a&lt;b"  # still escaped
+    assert breakable("static") == "static"
+    assert "overflow-wrap:anywhere" not in STYLE.split("table.data thead th{", 1)[1] \
+        .split("}", 1)[0]
+    page = render_html(sample_bundle())
+    assert "<th scope=\"col\" class=\"num\">ndcg@<wbr>10</th>" in page

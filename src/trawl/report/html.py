@@ -16,7 +16,7 @@ from typing import Any
 from . import format as fmt
 from .charts import (Bar, BarGroup, Look, Point, agreement_scatter, grouped_bars, look,
                      quality_latency)
-from .markup import Markup, el, join
+from .markup import Markup, breakable, el, join
 from .style import STYLE
 
 CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; form-action 'none'"
@@ -119,7 +119,7 @@ def _table(header: Sequence[Any], rows: Sequence[Sequence[Any]], caption: str | 
            numeric: Sequence[bool] | None = None, cls: str = "data") -> Markup:
     numeric = numeric or [i > 0 for i in range(len(header))]
     head = el("thead", None, el("tr", None, *(
-        el("th", {"scope": "col", "class_": "num" if n else None}, h)
+        el("th", {"scope": "col", "class_": "num" if n else None}, breakable(h))
         for h, n in zip(header, numeric))))
     body_rows = []
     for r in rows:

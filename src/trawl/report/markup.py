@@ -8,6 +8,7 @@ must never become live markup in a report, so escaping is the default, not a hab
 from __future__ import annotations
 
 import html
+import re
 from collections.abc import Iterable
 from typing import Any
 
@@ -60,6 +61,16 @@ def el(tag: str, attrs: dict[str, Any] | None = None, *children: Child) -> Marku
     if tag in VOID:
         return Markup(opening)
     return Markup(f"{opening}{_children(children)}</{tag}>")
+
+
+def breakable(text: Any) -> Markup:
+    """Text with a line-break opportunity after each . - _ @ + or /, so a narrow column
+    header wraps between the parts of a name ('minilm.vectors-' 'binary', 'ndcg@' '10')
+    instead of inside a word ('minil' 'm')."""
+    if isinstance(text, Markup):
+        return text
+    parts = re.split(r"(?<=[.\-_@+/])(?=.)", str(text))
+    return Markup("<wbr>".join(escape(p) for p in parts))
 
 
 def join(*children: Child) -> Markup:

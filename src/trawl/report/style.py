@@ -41,7 +41,7 @@ table.data caption{text-align:left;font-size:.8rem;color:var(--muted);padding-bo
 table.data th,table.data td{padding:.22rem .6rem;border-bottom:1px solid var(--rule);
 text-align:left;vertical-align:top}
 table.data thead th{border-bottom:2px solid var(--ink);font-weight:600;white-space:normal;
-overflow-wrap:anywhere}
+overflow-wrap:break-word}
 table.data tbody th{font-weight:500}
 .num{text-align:right!important;white-space:nowrap}
 .compact td,.compact th{padding:.15rem .45rem}
