@@ -289,3 +289,26 @@ def test_column_headers_wrap_between_name_parts_not_inside_words():
         .split("}", 1)[0]
     page = render_html(sample_bundle())
     assert "<th scope=\"col\" class=\"num\">ndcg@<wbr>10</th>" in page
+
+
+def test_a_long_legend_wraps_inside_the_chart():
+    """The per-type chart's legend was one row: with the demo's nine systems it ran past
+    the chart's right edge and cut 'minilm.vectors-int8' to 'minilm.vectors-i'. Every
+    legend name now ends inside the chart and the bars start below the legend."""
+    from trawl.report.charts import CHAR_PX, Bar, BarGroup, grouped_bars, look
+
+    names = ["minilm", "minilm-int8", "minilm-onnx", "minilm-onnx-int8", "minilm.vectors-int8",
+             "minilm.vectors-binary", "static", "bm25", "minilm+bm25"]
+    groups = [BarGroup(t, tuple(Bar(n, 0.6, 0.5, 0.7, look(i)) for i, n in enumerate(names)))
+              for t in ("article", "faq")]
+    root = ET.fromstring(grouped_bars(groups, "ndcg@10", "c", "t"))
+    ns = "{http://www.w3.org/2000/svg}"
+    width = float(root.get("width"))
+    legend = [t for t in root.iter(f"{ns}text") if t.text in names]
+    assert [t.text for t in legend] == names
+    ends = [float(t.get("x")) + CHAR_PX * len(t.text) for t in legend]
+    assert max(ends) <= width
+    rows = sorted({float(t.get("y")) for t in legend})
+    assert len(rows) > 1
+    bars = [float(r.get("y")) for r in root.iter(f"{ns}rect") if r.get("class") == "bar"]
+    assert min(bars) > rows[-1]

@@ -253,6 +253,20 @@ class BarGroup:
     bars: tuple[Bar, ...]
 
 
+def _legend_places(bars: Sequence[Bar], left: float,
+                   limit: float) -> list[tuple[Bar, float, float]]:
+    """(bar, x, y) of each legend entry, in rows that end before ``limit``: one row held
+    five of the demo's nine systems and cut the fifth name off at the chart's edge."""
+    out, lx, ly = [], left, 13.0
+    for b in bars:
+        span = 14 + CHAR_PX * len(b.label)
+        if lx > left and lx + span > limit:
+            lx, ly = left, ly + 16
+        out.append((b, lx, ly))
+        lx += span + 16
+    return out
+
+
 def grouped_bars(groups: Sequence[BarGroup], metric: str, chart_id: str,
                  title: str) -> Markup:
     """Horizontal bars per group with interval whiskers; x runs from 0 to 1."""
@@ -260,17 +274,16 @@ def grouped_bars(groups: Sequence[BarGroup], metric: str, chart_id: str,
     bar_h, gap = 11, 14
     group_h = n_bars * bar_h + gap
     width = 680
-    left, right, top = 150, width - 24, 30
+    left, right = 150, width - 24
+    places = _legend_places(groups[0].bars if groups else (), left, width - 8)
+    top = 30 + (places[-1][2] - 13 if places else 0)  # below the legend's last row
     bottom = top + len(groups) * group_h
     height = bottom + 44
     x = Scale(0.0, 1.0, left, right)
     body = [_x_axis(x, nice_ticks(0, 1), bottom, top, metric)]
-    legend = groups[0].bars if groups else ()
-    lx = left
-    for b in legend:
-        body.append(marker(b.look.marker, lx + 5, 13, b.look.colour, r=4.5))
-        body.append(el("text", {"x": _n(lx + 14), "y": 17, "class_": "tick"}, b.label))
-        lx += 30 + 7 * len(b.label)
+    for b, lx, ly in places:
+        body.append(marker(b.look.marker, lx + 5, ly, b.look.colour, r=4.5))
+        body.append(el("text", {"x": _n(lx + 14), "y": _n(ly + 4), "class_": "tick"}, b.label))
     for gi, g in enumerate(groups):
         gy = top + gi * group_h + gap / 2
         body.append(el("text", {"x": _n(left - 8), "y": _n(gy + len(g.bars) * bar_h / 2 + 4),
