@@ -339,13 +339,19 @@ def test_resumed_build_with_the_real_model_is_bit_identical(tmp_path, monkeypatc
     assert files_except_build(tmp_path / "idx") == files_except_build(tmp_path / "clean")
 
 
+def _key(n: int) -> str:
+    from trawl.embedcache import text_key
+
+    return text_key(f"k{n}")  # the cache is keyed by SHA-256 digests of texts
+
+
 def _write_many(folder: str, worker: int) -> None:
     from trawl.embedcache import EmbeddingCache
 
     with EmbeddingCache(folder, "enc") as cache:
         for batch in range(40):
-            keys = [f"k{(worker * 20 + batch * 3 + j) % 150}" for j in range(5)]
-            cache.put(keys, np.stack([np.full(4, int(k[1:]), np.float32) for k in keys]))
+            ns = [(worker * 20 + batch * 3 + j) % 150 for j in range(5)]
+            cache.put([_key(n) for n in ns], np.stack([np.full(4, n, np.float32) for n in ns]))
 
 
 def test_embedding_cache_stays_consistent_with_two_writers(tmp_path):
@@ -361,10 +367,10 @@ def test_embedding_cache_stays_consistent_with_two_writers(tmp_path):
         p.join(60)
     assert [p.exitcode for p in procs] == [0, 0]
     with EmbeddingCache(tmp_path, "enc") as cache:
-        expected = {f"k{(w * 20 + b * 3 + j) % 150}" for w in (0, 1) for b in range(40)
+        expected = {(w * 20 + b * 3 + j) % 150 for w in (0, 1) for b in range(40)
                     for j in range(5)}
-        found = cache.get(sorted(expected) + ["absent"])
-        assert set(found) == expected
-        assert all(v.tolist() == [int(k[1:])] * 4 for k, v in found.items())
+        found = cache.get([_key(n) for n in sorted(expected)] + [_key(-1)])
+        assert set(found) == {_key(n) for n in expected}
+        assert all(found[_key(n)].tolist() == [n] * 4 for n in expected)
     with EmbeddingCache(tmp_path, "other") as other:
-        assert other.get(["k1"]) == {}  # keys belong to one encoder fingerprint
+        assert other.get([_key(1)]) == {}  # keys belong to one encoder fingerprint

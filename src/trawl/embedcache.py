@@ -5,6 +5,15 @@ extra machinery: each batch is committed as one transaction, so a killed build k
 every finished batch and never a torn row; two processes writing the same cache are
 serialised by SQLite's own lock (``busy_timeout``) while readers keep reading; identical
 keys from two writers are harmless (``INSERT OR IGNORE``; equal inputs give equal vectors).
+
+``synchronous=NORMAL``: in WAL mode a commit survives the process being killed; a power
+cut may lose the last few commits (they are embedded again) but never corrupts the file.
+
+Layout (format 2): vectors are appended to a rowid table and found through a small
+unique index on (encoder, 32-byte digest). Format 1 kept the 1 KB vectors inside a
+WITHOUT ROWID table keyed by hex text, so every batch of random keys rewrote pages all
+over a large B-tree; a 200k-item build spent most of its time there. A format-1 table
+found on opening is copied into the new layout once and dropped.
 """
 
 from __future__ import annotations
@@ -24,6 +33,8 @@ from .files import check_writable
 CACHE_FILE = "embeddings.sqlite"
 BUSY_TIMEOUT_MS = 120_000
 MAX_PARAMS = 500  # rows fetched per SELECT ... IN (...)
+TABLE = "vectors_v2"  # format 2: rowid table + unique (encoder, digest) index
+OLD_TABLE = "vectors"  # format 1, migrated on open
 
 
 def default_cache_dir() -> Path:
@@ -58,12 +69,30 @@ class EmbeddingCache:
             self._db.execute(f"PRAGMA busy_timeout={BUSY_TIMEOUT_MS}")
             self._db.execute("PRAGMA journal_mode=WAL")
             self._db.execute("PRAGMA synchronous=NORMAL")
-            self._db.execute("CREATE TABLE IF NOT EXISTS vectors (encoder TEXT NOT NULL, "
-                             "text_sha256 TEXT NOT NULL, dim INTEGER NOT NULL, "
-                             "vector BLOB NOT NULL, PRIMARY KEY (encoder, text_sha256)) "
-                             "WITHOUT ROWID")
+            self._db.execute("PRAGMA cache_size=-32768")  # KiB: the key index stays in memory
+            self._db.execute(f"CREATE TABLE IF NOT EXISTS {TABLE} (encoder TEXT NOT NULL, "
+                             "digest BLOB NOT NULL, vector BLOB NOT NULL)")
+            self._db.execute(f"CREATE UNIQUE INDEX IF NOT EXISTS {TABLE}_key "
+                             f"ON {TABLE} (encoder, digest)")
+            self._migrate_format_1()
         except (OSError, sqlite3.Error) as exc:
             raise self._unusable(exc) from None
+
+    def _migrate_format_1(self) -> None:
+        """Copy a format-1 ``vectors`` table (hex text keys) into the new layout, once."""
+        if not self._has_table(OLD_TABLE):
+            return
+        self._db.create_function("trawl_unhex", 1, bytes.fromhex, deterministic=True)
+        with self._transaction():
+            if self._has_table(OLD_TABLE):  # another process may have migrated meanwhile
+                self._db.execute(f"INSERT OR IGNORE INTO {TABLE} (encoder, digest, vector) "
+                                 f"SELECT encoder, trawl_unhex(text_sha256), vector "
+                                 f"FROM {OLD_TABLE}")
+                self._db.execute(f"DROP TABLE {OLD_TABLE}")
+
+    def _has_table(self, name: str) -> bool:
+        return self._db.execute("SELECT 1 FROM sqlite_master WHERE type = 'table' AND "
+                                "name = ?", (name,)).fetchone() is not None
 
     def _unusable(self, exc: BaseException) -> OutputError:
         return OutputError(f"embedding cache {self.path} cannot be used ({exc}); delete that "
@@ -73,24 +102,25 @@ class EmbeddingCache:
         keys = list(dict.fromkeys(keys))
         found: dict[str, np.ndarray] = {}
         for start in range(0, len(keys), MAX_PARAMS):
-            chunk = keys[start:start + MAX_PARAMS]
+            chunk = [bytes.fromhex(k) for k in keys[start:start + MAX_PARAMS]]
             rows = self._db.execute(
-                f"SELECT text_sha256, vector FROM vectors WHERE encoder = ? AND text_sha256 IN "
+                f"SELECT digest, vector FROM {TABLE} WHERE encoder = ? AND digest IN "
                 f"({','.join('?' * len(chunk))})", [self.fingerprint, *chunk])
-            for key, blob in rows:
-                found[key] = np.frombuffer(blob, dtype=np.float32)
+            for digest, blob in rows:
+                found[digest.hex()] = np.frombuffer(blob, dtype=np.float32)
         return found
 
     def put(self, keys: Sequence[str], vectors: np.ndarray) -> None:
-        """Store one batch atomically."""
+        """Store one batch atomically (rows are slices of one buffer, not copies)."""
         vectors = np.ascontiguousarray(vectors, dtype=np.float32)
+        width = vectors.shape[1] * vectors.itemsize
+        raw = memoryview(vectors).cast("B")
+        rows = [(self.fingerprint, bytes.fromhex(k), raw[i * width:(i + 1) * width])
+                for i, k in enumerate(keys)]
         try:
             with self._transaction():
-                self._db.executemany(
-                    "INSERT OR IGNORE INTO vectors (encoder, text_sha256, dim, vector) "
-                    "VALUES (?, ?, ?, ?)",
-                    [(self.fingerprint, k, v.shape[0], v.tobytes())
-                     for k, v in zip(keys, vectors)])
+                self._db.executemany(f"INSERT OR IGNORE INTO {TABLE} (encoder, digest, vector) "
+                                     "VALUES (?, ?, ?)", rows)
         except sqlite3.OperationalError as exc:
             if "locked" in str(exc) or "busy" in str(exc):
                 raise
