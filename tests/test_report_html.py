@@ -312,3 +312,34 @@ def test_a_long_legend_wraps_inside_the_chart():
     assert len(rows) > 1
     bars = [float(r.get("y")) for r in root.iter(f"{ns}rect") if r.get("class") == "bar"]
     assert min(bars) > rows[-1]
+
+
+def test_point_labels_keep_off_other_markers_and_sit_under_them():
+    """In the demo's agreement chart 'static' was written under the bm25 marker drawn
+    after it, and in the latency chart whiskers crossed labels. Labels now avoid other
+    markers where a nearby row allows, and are drawn after whiskers, before markers."""
+    from trawl.report.charts import CHAR_PX, FONT_PX, Point, agreement_scatter, look
+
+    points = [Point("static", 0.477, 0.587, 0.587, 0.587, look(0)),  # the demo's figures
+              Point("bm25", 0.507, 0.583, 0.583, 0.583, look(1)),
+              Point("minilm", 0.665, 0.729, 0.729, 0.729, look(2))]
+    svg = agreement_scatter(points, "x", "y", "c", "t")
+    root = ET.fromstring(svg)
+    ns = "{http://www.w3.org/2000/svg}"
+    labels = {t.text: (float(t.get("x")), float(t.get("y"))) for t in root.iter(f"{ns}text")
+              if t.get("class") == "point-label"}
+    centres = []  # every marker's centre: circle (cx, cy), square (x + w/2, y + h/2)
+    for g in root.iter(f"{ns}g"):
+        if g.get("class") == "point":
+            shape = next(iter(g))
+            if shape.get("cx") is not None:
+                centres.append((float(shape.get("cx")), float(shape.get("cy"))))
+            elif shape.get("width") is not None:
+                centres.append((float(shape.get("x")) + float(shape.get("width")) / 2,
+                                float(shape.get("y")) + float(shape.get("height")) / 2))
+    assert len(centres) == 2  # the circle and the square; the triangle is a polygon
+    for name, (lx, ly) in labels.items():
+        for cx, cy in centres:
+            inside = lx - 4 <= cx <= lx + CHAR_PX * len(name) and ly - FONT_PX <= cy <= ly + 2
+            assert not inside, f"label {name!r} covers a marker at {cx, cy}"
+    assert svg.index('class="point-labels"') < svg.index('class="point"')

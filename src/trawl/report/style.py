@@ -63,6 +63,7 @@ svg .grid{stroke:var(--rule);stroke-width:.6;stroke-dasharray:2 3}
 svg .tick{font-size:11px;fill:var(--muted)}
 svg .axis-label{font-size:12px;fill:var(--ink)}
 svg .point-label,svg .group-label{font-size:12px;fill:var(--ink)}
+svg .point-label{paint-order:stroke;stroke:#fffdf8;stroke-width:3px;stroke-linejoin:round}
 svg .whisker{stroke-width:1.6}
 svg .whisker-dark{stroke:var(--ink);stroke-width:1.3}
 svg .bar{stroke:var(--ink);stroke-width:.4}
