@@ -285,6 +285,7 @@ def test_column_headers_wrap_between_name_parts_not_inside_words():
     assert breakable("ndcg@10") == "ndcg@<wbr>10"
     assert breakable("a<b") == "a&lt;b"  # still escaped
     assert breakable("static") == "static"
+    assert breakable("within 0.01") == "within 0.01"  # a decimal point is no break
     assert "overflow-wrap:anywhere" not in STYLE.split("table.data thead th{", 1)[1] \
         .split("}", 1)[0]
     page = render_html(sample_bundle())

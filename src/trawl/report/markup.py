@@ -64,12 +64,12 @@ def el(tag: str, attrs: dict[str, Any] | None = None, *children: Child) -> Marku
 
 
 def breakable(text: Any) -> Markup:
-    """Text with a line-break opportunity after each . - _ @ + or /, so a narrow column
-    header wraps between the parts of a name ('minilm.vectors-' 'binary', 'ndcg@' '10')
-    instead of inside a word ('minil' 'm')."""
+    """Text with a line-break opportunity after each - _ @ + / or . (not a decimal
+    point), so a narrow column header wraps between the parts of a name
+    ('minilm.vectors-' 'binary', 'ndcg@' '10') instead of inside a word ('minil' 'm')."""
     if isinstance(text, Markup):
         return text
-    parts = re.split(r"(?<=[.\-_@+/])(?=.)", str(text))
+    parts = re.split(r"(?<=[\-_@+/])(?=.)|(?<=\.)(?=\D)", str(text))  # not in 0.01
     return Markup("<wbr>".join(escape(p) for p in parts))
 
 
