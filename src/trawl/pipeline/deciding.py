@@ -37,7 +37,9 @@ def system_figures(s: System, indexes: Mapping[str, Any],
     parts = [s.name] if s.spec is not None else list(s.parts)
     infos = [indexes[p].info for p in parts if p in indexes]
     lat = latency.get(s.name, {})
-    seconds = [getattr(i, "seconds", None) for i in infos]
+    # a build that took vectors from the embedding cache did not pay for them: its time
+    # says nothing about what building costs, so it counts as unknown
+    seconds = [i.seconds if getattr(i, "reused", 0) == 0 else None for i in infos]
     return SystemFigures(
         s.name, lat.get("p50_ms"), lat.get("p95_ms"),
         sum(indexes[p].bytes for p in parts) if infos else None,
@@ -56,11 +58,18 @@ def evaluation_decision(systems: Sequence[System], loaded: Sequence[LoadedSet],
     runs = [found.runs[s.name] for s in systems]
     report = score_runs(ld.qrels, runs, [limits.headline])
     notes = [UNKNOWN_ORIGIN] if ld.origin == "unknown" else []
-    return decide([system_figures(s, indexes, found.latency) for s in systems],
+    figures = [system_figures(s, indexes, found.latency) for s in systems]
+    if any(f.build_seconds is None for f in figures):
+        # build times compare only when every index paid for its own embeddings
+        figures = [replace(f, build_seconds=None) for f in figures]
+        notes.append(BUILD_TIME_LEFT_OUT)
+    return decide(figures,
                   report.values[:, :, 0], limits, judgment_set=ld.spec.label or ld.spec.name,
                   silver=ld.silver, resamples=resamples, seed=seed, alpha=alpha, notes=notes)
 
 
+BUILD_TIME_LEFT_OUT = ("build time is left out of the costs: some indexes took their vectors "
+                      "from the embedding cache, so their build times are not comparable")
 UNKNOWN_ORIGIN = ("the judgments' origin is unknown (not declared as people's, no synthesis "
                   "provenance beside them): if a machine made them, treat this verdict as "
                   "provisional until people have judged a sample")
