@@ -35,6 +35,7 @@ BUSY_TIMEOUT_MS = 120_000
 MAX_PARAMS = 500  # rows fetched per SELECT ... IN (...)
 TABLE = "vectors_v2"  # format 2: rowid table + unique (encoder, digest) index
 OLD_TABLE = "vectors"  # format 1, migrated on open
+WAL_PAGES = 10_000  # checkpoint every ~40 MB of WAL: index pages changed often are copied once
 
 
 def default_cache_dir() -> Path:
@@ -70,6 +71,7 @@ class EmbeddingCache:
             self._db.execute("PRAGMA journal_mode=WAL")
             self._db.execute("PRAGMA synchronous=NORMAL")
             self._db.execute("PRAGMA cache_size=-32768")  # KiB: the key index stays in memory
+            self._db.execute(f"PRAGMA wal_autocheckpoint={WAL_PAGES}")
             self._db.execute(f"CREATE TABLE IF NOT EXISTS {TABLE} (encoder TEXT NOT NULL, "
                              "digest BLOB NOT NULL, vector BLOB NOT NULL)")
             self._db.execute(f"CREATE UNIQUE INDEX IF NOT EXISTS {TABLE}_key "

@@ -128,10 +128,10 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
 
 def _over_window(catalogue: Catalogue, spec: EncoderSpec) -> dict[str, int] | None:
     """How many items the encoder embeds only in part (``window.count_truncated``)."""
-    from ..window import count_truncated
+    from ..window import count_truncated, model_window
 
-    if spec.lexical:
-        return None
+    if spec.lexical or model_window(spec) is None:
+        return None  # nothing to count: do not render every text again (static encoders)
     texts = [catalogue.template.render(it) for it in catalogue.items]
     found = count_truncated(texts, spec, spec.document_prefix)
     return None if found is None else found.as_dict()
