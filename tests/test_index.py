@@ -374,3 +374,30 @@ def test_embedding_cache_stays_consistent_with_two_writers(tmp_path):
         assert all(found[_key(n)].tolist() == [n] * 4 for n in expected)
     with EmbeddingCache(tmp_path, "other") as other:
         assert other.get([_key(1)]) == {}  # keys belong to one encoder fingerprint
+
+
+def test_embedding_cache_moves_a_format_1_table_into_the_new_layout(tmp_path):
+    import sqlite3
+
+    from trawl.embedcache import CACHE_FILE, EmbeddingCache, text_key
+
+    # a cache file as format 1 wrote it: hex text keys in a WITHOUT ROWID table
+    old = sqlite3.connect(tmp_path / CACHE_FILE)
+    old.execute("CREATE TABLE vectors (encoder TEXT NOT NULL, text_sha256 TEXT NOT NULL, "
+                "dim INTEGER NOT NULL, vector BLOB NOT NULL, PRIMARY KEY (encoder, "
+                "text_sha256)) WITHOUT ROWID")
+    vectors = np.random.default_rng(0).standard_normal((3, 5)).astype(np.float32)
+    keys = [text_key(f"text {i}") for i in range(3)]
+    old.executemany("INSERT INTO vectors VALUES ('enc', ?, 5, ?)",
+                    [(k, v.tobytes()) for k, v in zip(keys, vectors)])
+    old.commit()
+    old.close()
+    with EmbeddingCache(tmp_path, "enc") as cache:
+        found = cache.get(keys)
+        assert [found[k].tobytes() for k in keys] == [v.tobytes() for v in vectors]  # bit-exact
+        cache.put([text_key("new")], vectors[:1])
+    with EmbeddingCache(tmp_path, "enc") as cache:  # reopening finds nothing left to move
+        assert len(cache.get([*keys, text_key("new")])) == 4
+    tables = sqlite3.connect(tmp_path / CACHE_FILE).execute(
+        "SELECT name FROM sqlite_master WHERE type = 'table'").fetchall()
+    assert tables == [("vectors_v2",)]
