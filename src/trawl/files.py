@@ -68,6 +68,16 @@ def check_writable(path: str | Path, what: str, folder: bool = False) -> None:
                           "choose a folder you can write to")
 
 
+def fsync_dir(folder: str | Path) -> None:
+    """Make a rename inside ``folder`` durable: a rename is only on disk once its
+    directory is."""
+    fd = os.open(folder, os.O_RDONLY)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)
+
+
 def _umask() -> int:
     mask = os.umask(0)
     os.umask(mask)

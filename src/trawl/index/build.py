@@ -28,7 +28,7 @@ from ..catalogue import Catalogue
 from ..embedcache import EmbeddingCache, check_cache_dir, default_cache_dir, text_key
 from ..engines import Engine, LocalEngine
 from ..errors import TrawlError, UsageError
-from ..files import atomic_write, check_writable
+from ..files import atomic_write, check_writable, fsync_dir
 from ..progress import progress
 from ..retrievers.loading import EncoderLoader, default_loader
 from ..retrievers.spec import EncoderSpec, as_spec
@@ -330,18 +330,11 @@ def _recover_leftovers(out: Path) -> None:
 
 
 def _swap_into_place(tmp: Path, out: Path) -> None:
-    _fsync_dir(tmp)
+    fsync_dir(tmp)
     old = out.parent / f".{out.name}.replaced-{os.getpid()}"
     if out.exists():
         os.rename(out, old)
     os.rename(tmp, out)
-    _fsync_dir(out.parent)
+    fsync_dir(out.parent)
     shutil.rmtree(old, ignore_errors=True)
 
-
-def _fsync_dir(folder: Path) -> None:
-    fd = os.open(folder, os.O_RDONLY)
-    try:
-        os.fsync(fd)
-    finally:
-        os.close(fd)

@@ -22,7 +22,7 @@ from collections.abc import Iterator, Mapping
 from pathlib import Path
 from typing import Any
 
-from ..files import atomic_write
+from ..files import atomic_write, fsync_dir
 
 STAMP = "outputs.json"
 STAMP_FORMAT = "trawl-outputs/1"
@@ -88,7 +88,7 @@ def publish(stage: Path, out: Path) -> dict[str, Any]:
     before = published(out) or {}
     with contextlib.suppress(FileNotFoundError):
         (out / STAMP).unlink()
-    _fsync_dir(out)
+    fsync_dir(out)
     files: dict[str, Any] = {}
     for path in sorted(p for p in stage.rglob("*") if p.is_file()):
         rel = path.relative_to(stage).as_posix()
@@ -105,10 +105,3 @@ def publish(stage: Path, out: Path) -> dict[str, Any]:
         fh.write("\n")
     return files
 
-
-def _fsync_dir(folder: Path) -> None:
-    fd = os.open(folder, os.O_RDONLY)
-    try:
-        os.fsync(fd)
-    finally:
-        os.close(fd)
