@@ -18,6 +18,8 @@ from pathlib import Path
 
 import numpy as np
 
+from trawl.embedcache import TABLE as CACHE_TABLE  # the vectors table of the current format
+
 WORDS = ("fare pass bus tram refund lost property ticket route stop card account alert delay "
          "wheelchair ramp timetable zone student senior depot platform bike night weekend "
          "transfer reader validator wallet receipt").split()
@@ -96,7 +98,7 @@ def cache_rows(cache_dir: Path) -> int:
         return 0
     db = sqlite3.connect(f"file:{path}?mode=ro", uri=True, timeout=30)
     try:
-        return db.execute("SELECT COUNT(*) FROM vectors").fetchone()[0]
+        return db.execute(f"SELECT COUNT(*) FROM {CACHE_TABLE}").fetchone()[0]
     except sqlite3.OperationalError:  # the table is not created yet
         return 0
     finally:
@@ -109,10 +111,10 @@ def cache_health(cache_dir: Path) -> tuple[str, set[int], int]:
     db = sqlite3.connect(cache_dir / "embeddings.sqlite", timeout=30)
     try:
         verdict = db.execute("PRAGMA integrity_check").fetchone()[0]
-        if not db.execute("SELECT 1 FROM sqlite_master WHERE name = 'vectors'").fetchone():
+        if not db.execute("SELECT 1 FROM sqlite_master WHERE name = ?", (CACHE_TABLE,)).fetchone():
             return verdict, set(), 0
-        sizes = {n for (n,) in db.execute("SELECT DISTINCT length(vector) FROM vectors")}
-        rows = db.execute("SELECT COUNT(*) FROM vectors").fetchone()[0]
+        sizes = {n for (n,) in db.execute(f"SELECT DISTINCT length(vector) FROM {CACHE_TABLE}")}
+        rows = db.execute(f"SELECT COUNT(*) FROM {CACHE_TABLE}").fetchone()[0]
         return verdict, sizes, rows
     finally:
         db.close()
