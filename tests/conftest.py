@@ -35,6 +35,19 @@ def cranfield() -> Path:
     return CRANFIELD
 
 
+@pytest.fixture(scope="session")
+def cranfield_reference_vectors(cranfield):
+    """sentence-transformers' own encode of the bundled model (normalised) over every
+    Cranfield item: the outside reference for our torch and ONNX encoders, paid once."""
+    from trawl import bundled
+    from trawl.catalogue import load_catalogue
+    from trawl.retrievers.dense import load_sentence_transformer
+
+    texts = load_catalogue(cranfield / "catalogue.jsonl").texts()
+    return load_sentence_transformer(str(bundled.model_path())).encode(
+        texts, batch_size=32, normalize_embeddings=True, convert_to_numpy=True)
+
+
 def invoke(args: list[str], **kw):
     """Run the real CLI in-process; returns click's Result."""
     from click.testing import CliRunner

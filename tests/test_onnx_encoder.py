@@ -192,15 +192,12 @@ def test_onnx_token_vectors_equal_torch_on_the_same_tokens(exported):
 
 @pytest.mark.slow
 def test_minilm_onnx_vectors_match_sentence_transformers_on_every_cranfield_item(
-        cranfield, export_root):
+        cranfield, export_root, cranfield_reference_vectors):
     # Reference: sentence-transformers' encode of the bundled model (normalised), on every
     # item of the Cranfield collection (1,400 aeronautics abstracts, an open test collection).
     # Goal from the deployment-variants issue: cosine >= 0.9999 on every item.
-    from trawl.retrievers.dense import load_sentence_transformer
-
     texts = load_catalogue(cranfield / "catalogue.jsonl").texts()
-    reference = load_sentence_transformer(str(bundled.model_path())).encode(
-        texts, batch_size=32, normalize_embeddings=True, convert_to_numpy=True)
+    reference = cranfield_reference_vectors
     encoder = onnx_enc.OnnxEncoder(EncoderSpec("minilm-onnx"), EncoderLoader(), export_root)
     ours = encoder.encode_documents(texts)
     cosine = (ours * reference).sum(axis=1)
