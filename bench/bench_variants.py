@@ -13,7 +13,7 @@ Document vectors come from trawl's embedding cache (TRAWL_CACHE_DIR), so reruns 
 nothing. Load average is printed before and after timing: on a machine busier than its
 cores, latency figures are inflated, ratios much less so.
 
-    TRAWL_CACHE_DIR=/work/cache .venv/bin/python bench/bench_variants.py [--passes 3]
+    TRAWL_CACHE_DIR=CACHE .venv/bin/python bench/bench_variants.py [--passes 3]
 """
 
 from __future__ import annotations
