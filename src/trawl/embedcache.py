@@ -52,7 +52,12 @@ def check_cache_dir(folder: str | Path) -> None:
 
 
 def text_key(text: str) -> str:
-    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+    return utf8_key(text.encode("utf-8"))
+
+
+def utf8_key(data: bytes) -> str:
+    """``text_key`` of a text already encoded as UTF-8 (a build keeps texts encoded)."""
+    return hashlib.sha256(data).hexdigest()
 
 
 class EmbeddingCache:

@@ -17,7 +17,8 @@ import json
 import os
 import shutil
 import time
-from collections.abc import Iterable, Iterator, Mapping
+from collections import deque
+from collections.abc import Iterator
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
@@ -25,7 +26,7 @@ from typing import Any
 import numpy as np
 
 from ..catalogue import Catalogue
-from ..embedcache import EmbeddingCache, check_cache_dir, default_cache_dir, text_key
+from ..embedcache import EmbeddingCache, check_cache_dir, default_cache_dir, utf8_key
 from ..engines import Engine, LocalEngine
 from ..errors import TrawlError, UsageError
 from ..files import atomic_write, check_writable, fsync_dir
@@ -38,6 +39,8 @@ from .manifest import (ANN_KINDS, HNSW_FILE, IDS, LEXICAL_DIR, MANIFEST, IndexIn
 from .rowfile import RowFile
 
 EMBED_CHUNK = 256   # texts per cache commit: the unit an interrupted build resumes from
+STATIC_CHUNK = 1024  # the same for static models (a chunk takes a fraction of a second)
+WINDOW = 16_384     # items rendered, looked up in the cache and ordered by length at a time
 CACHE_SLICE = 5000  # cached vectors fetched at a time while filling the matrix
 DEFAULT_BATCH_SIZE = 32  # sentence-transformers' own default
 
@@ -139,75 +142,126 @@ def _over_window(catalogue: Catalogue, spec: EncoderSpec) -> dict[str, int] | No
 
 def _embed(catalogue: Catalogue, encoder, cache_root: Path, batch_size: int,
            quiet: bool, engine: Engine, in_place: Path | None = None) -> tuple[np.ndarray, int]:
-    """Vectors in catalogue order, embedding only texts the cache lacks.
+    """Vectors in catalogue order, embedding only texts the cache lacks; returns them and
+    how many items were embedded (the rest came from the cache)."""
+    store = _RowStore(len(catalogue), cache_root, in_place)
+    with EmbeddingCache(cache_root, encoder.fingerprint) as cache, \
+            progress(len(catalogue), "embedding", quiet, unit="item") as bar:
+        plan = _Plan(catalogue, cache, store, _chunk_size(encoder.spec), bar)
+        for vectors in engine.encode_chunks(encoder.spec, encoder, plan.chunks(), batch_size):
+            plan.commit(vectors)
+    return store.matrix, plan.embedded
 
-    Missing texts are embedded in a fixed order (length, then hash) and committed per
-    chunk, so a resumed build embeds exactly the chunks an uninterrupted one would have,
-    in the same batches, and produces the same bits.
 
-    Memory: vectors go straight into one preallocated matrix (cached ones fetched a
-    slice at a time) and texts are rendered again when their chunk is embedded rather
-    than all kept, so a build holds little more than the vectors themselves; with
-    ``in_place`` the rows go straight into that .npy file instead (``rowfile``).
+def _chunk_size(spec: EncoderSpec) -> int:
+    """Texts per chunk: a static model embeds thousands a second, so its chunks are larger
+    (the tokenizer spreads a call over every core, and there are fewer commits)."""
+    return STATIC_CHUNK if spec.kind == "static" else EMBED_CHUNK
+
+
+class _Plan:
+    """Which texts a build embeds, in which chunks, and where their vectors go.
+
+    The catalogue is read in windows of ``WINDOW`` items: each text is rendered once,
+    keyed, looked up in the cache, and the window's missing texts are embedded in a fixed
+    order (length, then key) and committed per chunk. So a resumed build embeds exactly
+    the chunks an uninterrupted one would have, in the same batches, and produces the
+    same bits; and a build holds one window's texts, never all of them. A text seen in
+    an earlier window is not embedded again: it is in the cache, or its chunk is still
+    on its way (``_rows``), whatever the engine's timing.
     """
-    items, template = catalogue.items, catalogue.template
-    first: dict[str, int] = {}        # text key -> first item with that text
-    repeats: dict[str, list[int]] = {}  # text key -> later items with the same text
-    length = np.empty(len(items), dtype=np.int64)
-    for i, item in enumerate(items):
-        text = template.render(item)
-        key = text_key(text)
-        length[i] = len(text)
-        if key in first:
-            repeats.setdefault(key, []).append(i)
-        else:
-            first[key] = i
-    store = _RowStore(len(items), first, repeats, cache_root, in_place)
-    with EmbeddingCache(cache_root, encoder.fingerprint) as cache:
-        unique = list(first)
-        found: set[str] = set()
-        for s in range(0, len(unique), CACHE_SLICE):
-            got = cache.get(unique[s:s + CACHE_SLICE])
-            store.fill(got.keys(), got.values())
-            found.update(got)
-        todo = sorted((k for k in unique if k not in found),
-                      key=lambda k: (int(length[first[k]]), k))
-        del unique, found
-        with progress(len(todo), "embedding", quiet, unit="text") as bar:
-            chunks = [todo[s:s + EMBED_CHUNK] for s in range(0, len(todo), EMBED_CHUNK)]
-            texts = ([template.render(items[first[k]]) for k in chunk] for chunk in chunks)
-            encoded = engine.encode_chunks(encoder.spec, encoder, texts, batch_size)
-            for chunk, vectors in zip(chunks, encoded):
-                cache.put(chunk, vectors)
-                store.fill(chunk, vectors)
-                bar.update(len(chunk))
-    embedded = sum(1 + len(repeats.get(k, ())) for k in todo)
-    return store.matrix, embedded
+
+    def __init__(self, catalogue: Catalogue, cache: EmbeddingCache, store: _RowStore,
+                 size: int, bar: Any) -> None:
+        self._catalogue, self._cache, self._store = catalogue, cache, store
+        self._size, self._bar = size, bar
+        self._flight: deque[list[str]] = deque()  # keys of chunks handed out, in order
+        self._rows: dict[str, list[int]] = {}      # key handed out, not committed -> rows
+        self._done: set[str] = set()               # keys this build embedded and committed
+        self.embedded = 0                          # items whose text this build embedded
+
+    def chunks(self) -> Iterator[list[str]]:
+        """Texts to embed, chunk by chunk; vectors the cache holds are stored on the way."""
+        items, render = self._catalogue.items, self._catalogue.template.render
+        for start in range(0, len(items), WINDOW):
+            rows: dict[str, list[int]] = {}
+            texts: dict[str, str] = {}
+            for i in range(start, min(start + WINDOW, len(items))):
+                text = render(items[i])
+                key = utf8_key(text.encode("utf-8"))
+                if key in rows:
+                    rows[key].append(i)
+                else:
+                    rows[key] = [i]
+                    texts[key] = text
+            for key in [k for k in rows if k in self._rows]:  # its chunk is on its way
+                self._rows[key] += rows.pop(key)
+            self._fill_cached(rows)
+            todo = sorted(rows, key=lambda k: (len(texts[k]), k))
+            for s in range(0, len(todo), self._size):
+                keys = todo[s:s + self._size]
+                self._rows.update((k, rows[k]) for k in keys)
+                self._flight.append(keys)
+                yield [texts[k] for k in keys]
+
+    def _fill_cached(self, rows: dict[str, list[int]]) -> None:
+        """Store the vectors the cache holds and drop their keys from ``rows``."""
+        keys = list(rows)
+        for s in range(0, len(keys), CACHE_SLICE):
+            got = self._cache.get(keys[s:s + CACHE_SLICE])
+            if not got:
+                continue
+            found = [rows.pop(k) for k in got]
+            self._store.fill(found, list(got.values()))
+            self.embedded += sum(len(w) for k, w in zip(got, found) if k in self._done)
+            self._bar.update(sum(map(len, found)))
+
+    def commit(self, vectors: np.ndarray) -> None:
+        """Store the vectors of the oldest chunk handed out, in the cache and the matrix."""
+        keys = self._flight.popleft()
+        self._cache.put(keys, vectors)
+        rows = [self._rows.pop(k) for k in keys]
+        self._store.fill(rows, vectors)
+        self._done.update(keys)
+        n = sum(map(len, rows))
+        self.embedded += n
+        self._bar.update(n)
 
 
 class _RowStore:
-    """The vector matrix of a build, filled by text key; every vector must have one size."""
+    """The vector matrix of a build, filled by rows; every vector must have one size."""
 
-    def __init__(self, n: int, first: Mapping[str, int], repeats: Mapping[str, list[int]],
-                 cache_root: Path, in_place: Path | None = None) -> None:
-        self._n, self._first, self._repeats = n, first, repeats
+    def __init__(self, n: int, cache_root: Path, in_place: Path | None = None) -> None:
+        self._n = n
         self._cache_root = cache_root
         self._in_place = in_place
         self._matrix: np.ndarray | RowFile | None = None
 
-    def fill(self, keys: Iterable[str], vectors: Iterable[np.ndarray]) -> None:
-        for k, v in zip(keys, vectors):
-            if self._matrix is None:
-                shape = (self._n, v.shape[0])
-                self._matrix = (np.empty(shape, dtype=np.float32) if self._in_place is None
-                                else RowFile(self._in_place, shape))
-            if v.shape[0] != self._matrix.shape[1]:
-                raise TrawlError(f"embedding cache {self._cache_root} holds vectors of sizes "
-                                 f"{sorted({v.shape[0], self._matrix.shape[1]})} for one "
-                                 "encoder; delete the cache file and rebuild")
-            self._matrix[self._first[k]] = v
-            for row in self._repeats.get(k, ()):
-                self._matrix[row] = v
+    def fill(self, rows: list[list[int]], vectors: np.ndarray | list[np.ndarray]) -> None:
+        """``vectors[j]`` into every row of ``rows[j]``, one assignment for the first ones."""
+        sizes = ({vectors.shape[1]} if isinstance(vectors, np.ndarray) else
+                 {v.shape[0] for v in vectors})
+        if self._matrix is not None:
+            sizes.add(self._matrix.shape[1])
+        if len(sizes) > 1:
+            raise TrawlError(f"embedding cache {self._cache_root} holds vectors of sizes "
+                             f"{sorted(sizes)} for one encoder; delete the cache file and "
+                             "rebuild")
+        if self._matrix is None:
+            shape = (self._n, sizes.pop())
+            self._matrix = (np.empty(shape, dtype=np.float32) if self._in_place is None
+                            else RowFile(self._in_place, shape))
+        block = vectors if isinstance(vectors, np.ndarray) else np.stack(vectors)
+        self._put([r[0] for r in rows], block)
+        for j, where in enumerate(rows):
+            if len(where) > 1:
+                self._put(where[1:], block[[j] * (len(where) - 1)])
+
+    def _put(self, rows: list[int], block: np.ndarray) -> None:
+        if isinstance(self._matrix, np.ndarray):
+            self._matrix[rows] = block
+        else:
+            self._matrix.put(rows, block)
 
     @property
     def matrix(self) -> np.ndarray:
