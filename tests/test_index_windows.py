@@ -102,3 +102,49 @@ def test_rows_written_while_mapped_pages_are_released_are_all_kept(tmp_path, mon
     np.save(tmp_path / "saved.npy", matrix)
     assert (tmp_path / "rows.npy").read_bytes() == (tmp_path / "saved.npy").read_bytes()
     assert np.array_equal(back, matrix)
+
+
+def test_a_first_build_asks_the_cache_only_for_texts_it_embedded(tmp_path, monkeypatch):
+    from trawl.embedcache import EmbeddingCache, text_key
+
+    small_windows(monkeypatch)
+    asked: list[str] = []
+    original = EmbeddingCache.get
+
+    def recording(self, keys):
+        keys = list(keys)
+        asked.extend(keys)
+        return original(self, keys)
+
+    monkeypatch.setattr(EmbeddingCache, "get", recording)
+    cat = repeating_catalogue()
+    build_index(cat, "minilm", tmp_path / "a", cache_dir=tmp_path / "c", quiet=True,
+                loader=FakeLoader())
+    texts = cat.texts()
+    earlier = {text_key(t) for i, t in enumerate(texts) if t in texts[:i - i % 7]}
+    assert asked and set(asked) <= earlier  # repeats of texts from earlier windows only
+    asked.clear()
+    info = build_index(cat, "minilm", tmp_path / "b", cache_dir=tmp_path / "c", quiet=True,
+                       loader=FakeLoader())
+    assert set(asked) == {text_key(t) for t in texts}  # a used cache is asked for all
+    assert (info.embedded, info.reused) == (0, 40)
+
+
+def test_new_cache_files_get_16_kb_pages_and_old_ones_keep_theirs(tmp_path):
+    import sqlite3
+
+    from trawl.embedcache import CACHE_FILE, PAGE_SIZE, EmbeddingCache
+
+    (tmp_path / "old").mkdir()
+    old = sqlite3.connect(tmp_path / "old" / CACHE_FILE)
+    old.execute("PRAGMA page_size=4096")
+    old.execute("PRAGMA journal_mode=WAL")
+    old.execute("CREATE TABLE vectors_v2 (encoder TEXT NOT NULL, digest BLOB NOT NULL, "
+                "vector BLOB NOT NULL)")
+    old.close()
+    for folder, size in (("old", 4096), ("new", PAGE_SIZE)):
+        with EmbeddingCache(tmp_path / folder, "enc") as cache:
+            cache.put(["00" * 32], np.ones((1, 4), dtype=np.float32))
+        db = sqlite3.connect(tmp_path / folder / CACHE_FILE)
+        assert db.execute("PRAGMA page_size").fetchone()[0] == size
+        db.close()

@@ -35,7 +35,8 @@ BUSY_TIMEOUT_MS = 120_000
 MAX_PARAMS = 500  # rows fetched per SELECT ... IN (...)
 TABLE = "vectors_v2"  # format 2: rowid table + unique (encoder, digest) index
 OLD_TABLE = "vectors"  # format 1, migrated on open
-WAL_PAGES = 10_000  # checkpoint every ~40 MB of WAL: index pages changed often are copied once
+PAGE_SIZE = 16_384  # new files: a quarter of the pages to touch per batch of random keys
+WAL_BYTES = 40 << 20  # checkpoint every 40 MB of WAL: index pages changed often are copied once
 
 
 def default_cache_dir() -> Path:
@@ -73,10 +74,12 @@ class EmbeddingCache:
             self._db = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_MS / 1000,
                                        isolation_level=None)
             self._db.execute(f"PRAGMA busy_timeout={BUSY_TIMEOUT_MS}")
+            self._db.execute(f"PRAGMA page_size={PAGE_SIZE}")  # a new file only
             self._db.execute("PRAGMA journal_mode=WAL")
             self._db.execute("PRAGMA synchronous=NORMAL")
             self._db.execute("PRAGMA cache_size=-32768")  # KiB: the key index stays in memory
-            self._db.execute(f"PRAGMA wal_autocheckpoint={WAL_PAGES}")
+            page = self._db.execute("PRAGMA page_size").fetchone()[0]
+            self._db.execute(f"PRAGMA wal_autocheckpoint={WAL_BYTES // page}")
             self._db.execute(f"CREATE TABLE IF NOT EXISTS {TABLE} (encoder TEXT NOT NULL, "
                              "digest BLOB NOT NULL, vector BLOB NOT NULL)")
             self._db.execute(f"CREATE UNIQUE INDEX IF NOT EXISTS {TABLE}_key "
@@ -116,6 +119,11 @@ class EmbeddingCache:
             for digest, blob in rows:
                 found[digest.hex()] = np.frombuffer(blob, dtype=np.float32)
         return found
+
+    def holds_any(self) -> bool:
+        """Whether the cache holds any vector of this encoder (a first build finds none)."""
+        return self._db.execute(f"SELECT 1 FROM {TABLE} WHERE encoder = ? LIMIT 1",
+                                [self.fingerprint]).fetchone() is not None
 
     def put(self, keys: Sequence[str], vectors: np.ndarray) -> None:
         """Store one batch atomically (rows are slices of one buffer, not copies)."""

@@ -39,7 +39,7 @@ from .manifest import (ANN_KINDS, HNSW_FILE, IDS, LEXICAL_DIR, MANIFEST, IndexIn
 from .rowfile import RowFile
 
 EMBED_CHUNK = 256   # texts per cache commit: the unit an interrupted build resumes from
-STATIC_CHUNK = 1024  # the same for static models (a chunk takes a fraction of a second)
+STATIC_CHUNK = 4096  # the same for static models (a chunk takes about a second)
 WINDOW = 16_384     # items rendered, looked up in the cache and ordered by length at a time
 CACHE_SLICE = 5000  # cached vectors fetched at a time while filling the matrix
 DEFAULT_BATCH_SIZE = 32  # sentence-transformers' own default
@@ -179,6 +179,9 @@ class _Plan:
         self._rows: dict[str, list[int]] = {}      # key handed out, not committed -> rows
         self._done: set[str] = set()               # keys this build embedded and committed
         self.embedded = 0                          # items whose text this build embedded
+        # a cache without this encoder's vectors at the start holds only what this build
+        # puts there: look up only those texts (repeats in later windows)
+        self._fresh = not cache.holds_any()
 
     def chunks(self) -> Iterator[list[str]]:
         """Texts to embed, chunk by chunk; vectors the cache holds are stored on the way."""
@@ -206,7 +209,7 @@ class _Plan:
 
     def _fill_cached(self, rows: dict[str, list[int]]) -> None:
         """Store the vectors the cache holds and drop their keys from ``rows``."""
-        keys = list(rows)
+        keys = [k for k in rows if k in self._done] if self._fresh else list(rows)
         for s in range(0, len(keys), CACHE_SLICE):
             got = self._cache.get(keys[s:s + CACHE_SLICE])
             if not got:
