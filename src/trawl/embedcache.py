@@ -57,7 +57,7 @@ def text_key(text: str) -> str:
 
 
 def utf8_key(data: bytes) -> str:
-    """``text_key`` of a text already encoded as UTF-8 (a build keeps texts encoded)."""
+    """``text_key`` of a text already encoded as UTF-8 (a build hashes the bytes it has)."""
     return hashlib.sha256(data).hexdigest()
 
 
