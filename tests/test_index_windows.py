@@ -148,3 +148,25 @@ def test_new_cache_files_get_16_kb_pages_and_old_ones_keep_theirs(tmp_path):
         db = sqlite3.connect(tmp_path / folder / CACHE_FILE)
         assert db.execute("PRAGMA page_size").fetchone()[0] == size
         db.close()
+
+
+def test_a_full_disk_is_an_error_when_the_row_file_is_made(tmp_path, monkeypatch):
+    import errno
+    import os
+
+    from trawl.index import rowfile
+
+    def full(fd, offset, length):
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+    monkeypatch.setattr(rowfile.os, "posix_fallocate", full, raising=False)
+    with pytest.raises(OSError, match="No space left"):
+        RowFile(tmp_path / "rows.npy", (10, 4))
+
+    def unsupported(fd, offset, length):
+        raise OSError(errno.EOPNOTSUPP, os.strerror(errno.EOPNOTSUPP))
+
+    monkeypatch.setattr(rowfile.os, "posix_fallocate", unsupported, raising=False)
+    rows = RowFile(tmp_path / "rows.npy", (10, 4))  # such file systems allocate on write
+    rows.put([3], np.ones((1, 4), dtype=np.float32))
+    assert rows.finish()[3].tolist() == [1, 1, 1, 1]

@@ -15,6 +15,7 @@ at the start, so a full disk is an error there rather than a crash while writing
 
 from __future__ import annotations
 
+import errno
 import mmap
 import os
 from pathlib import Path
@@ -37,7 +38,7 @@ class RowFile:
         size = start + shape[0] * shape[1] * 4
         del made  # the header is written; no data page is touched
         self._fd = os.open(path, os.O_RDWR)
-        os.posix_fallocate(self._fd, 0, size)  # ENOSPC now, not SIGBUS on a mapped write
+        _allocate(self._fd, size)
         self._map = mmap.mmap(self._fd, size)
         self._rows = np.frombuffer(self._map, dtype=np.float32, count=shape[0] * shape[1],
                                    offset=start).reshape(shape)
@@ -71,3 +72,15 @@ class RowFile:
     def __del__(self) -> None:  # a build that failed midway leaves no open file behind
         if hasattr(self, "_fd"):
             self.close()
+
+
+def _allocate(fd: int, size: int) -> None:
+    """Reserve the file's blocks now: a full disk is an error here, where it can be
+    reported, rather than a SIGBUS on a write through the mapping."""
+    if not hasattr(os, "posix_fallocate"):
+        return  # the file is already sized; writes allocate as they come
+    try:
+        os.posix_fallocate(fd, 0, size)
+    except OSError as exc:
+        if exc.errno not in (errno.EOPNOTSUPP, errno.EINVAL):  # file systems without it
+            raise
