@@ -198,6 +198,31 @@ def test_bootstrap_is_seeded():
     assert one["kendall_tau_b"]["low"] < one["kendall_tau_b"]["high"]
 
 
+def test_flip_shares_follow_each_sets_own_noise():
+    from scipy.stats import norm
+
+    from trawl.metrics import per_query
+
+    good = _qrels(40)
+    bad = {q: {i: 1 for i in ITEMS if i not in rel} for q, rel in good.items()}
+    runs = _systems(good, noises=(1.0, 1.1), seed=4)
+    res = agree(good, bad, runs, resamples=4000, seed=2)
+    (flip,) = res.flips
+    first, second = (runs[0], runs[1]) if flip.first == "sys0" else (runs[1], runs[0])
+    d = (per_query(good, first, ["ndcg@10"])["ndcg@10"]
+         - per_query(good, second, ["ndcg@10"])["ndcg@10"]).to_numpy()
+    # The bootstrap share of replicates whose mean difference keeps its sign approaches
+    # Phi(mean / (sd / sqrt(n))) by the central limit theorem (standard result, from
+    # memory); 4,000 replicates of 40 queries put it within a few points.
+    expected = norm.cdf(d.mean() / (d.std() / np.sqrt(len(d))))
+    assert 0.5 < flip.held_a < 1.0
+    assert flip.held_a == pytest.approx(expected, abs=0.05)
+    assert 0.5 < flip.held_b <= 1.0
+    shown = res.as_dict()["flips"][0]
+    assert (shown["held_a"], shown["held_b"]) == (flip.held_a, flip.held_b)
+    assert agree(good, bad, runs, resamples=0).flips[0].held_a is None
+
+
 def test_no_resamples_no_interval():
     q = _qrels(10)
     res = agree(q, q, _systems(q), resamples=0)
@@ -237,7 +262,8 @@ def test_agree_cli_table_and_json(tmp_path):
     assert "Spearman's rho   -1.000  [-1.000, -1.000]" in lines
     assert "(95% bootstrap interval, 50 resamples over queries, seed 0)" in lines
     assert "1 pair(s) change order (better under A, worse under B):" in lines
-    assert any(line.startswith("  sys0 vs sys1: ahead by ") for line in lines)
+    assert any(line.startswith("  sys0 vs sys1: ahead by ") and "under A (in 100% of "
+               "resamples), behind by" in line for line in lines)
     assert "with 2 systems a rank correlation" in res.stdout
     assert "estimates" in lines[-1]
     js = json.loads(invoke(["agree", tmp_path / "a.qrels", tmp_path / "b.qrels", *paths,

@@ -56,6 +56,11 @@ class Flip:
     second: str
     diff_a: float  # first - second under A (> 0)
     diff_b: float  # first - second under B (< 0)
+    # Share of bootstrap replicates in which A still puts first ahead (held_a) and B
+    # still puts it behind (held_b); None without an interval. A flip on a pair that a set
+    # holds in, say, 60% of replicates is within that set's own noise.
+    held_a: float | None = None
+    held_b: float | None = None
 
 
 @dataclass(frozen=True)
@@ -84,7 +89,8 @@ class Agreement:
                          "rank_a": s.rank_a, "rank_b": s.rank_b} for s in self.systems],
             "kendall_tau_b": self.tau.as_dict(), "spearman_rho": self.rho.as_dict(),
             "flips": [{"first": f.first, "second": f.second, "diff_a": f.diff_a,
-                       "diff_b": f.diff_b} for f in self.flips],
+                       "diff_b": f.diff_b, "held_a": f.held_a, "held_b": f.held_b}
+                      for f in self.flips],
             "bootstrap": {"resamples": self.resamples, "seed": self.seed,
                           "confidence": self.confidence, "note": self.note},
         }
@@ -142,6 +148,7 @@ def agree(qrels_a: Qrels, qrels_b: Qrels, runs: Sequence[Run], metric: str = "nd
     ib_only = np.array([i for i, q in enumerate(qids_b) if q not in set_a], dtype=int)
 
     tau_ci = rho_ci = (math.nan, math.nan)
+    boot_a = boot_b = None
     note = too_few(min(len(qids_a), len(qids_b))) if resamples > 0 else None
     if resamples > 0 and note is None:
         rng = np.random.default_rng(seed)
@@ -162,7 +169,11 @@ def agree(qrels_a: Qrels, qrels_b: Qrels, runs: Sequence[Run], metric: str = "nd
         if da * db < 0:
             first, second = (i, j) if da > 0 else (j, i)
             sign = 1 if da > 0 else -1
-            flips.append(Flip(names[first], names[second], float(sign * da), float(sign * db)))
+            held = ((None, None) if boot_a is None else
+                    (float(np.mean(boot_a[:, first] > boot_a[:, second])),
+                     float(np.mean(boot_b[:, first] < boot_b[:, second]))))
+            flips.append(Flip(names[first], names[second], float(sign * da), float(sign * db),
+                              *held))
     flips.sort(key=lambda f: (-(f.diff_a - f.diff_b), f.first, f.second))
     identical = sum(1 for q in shared if qrels_a[q] == qrels_b[q])
     return Agreement(column, len(qids_a), len(qids_b), len(shared), systems,

@@ -251,6 +251,12 @@ class Flip:
     second: str
     diff_a: float
     diff_b: float
+    held_a: float | None = _doc("share of bootstrap replicates in which A keeps first "
+                                "ahead; absent without an interval", omit_none=True,
+                                default=None)
+    held_b: float | None = _doc("share of bootstrap replicates in which B keeps first "
+                                "behind; absent without an interval", omit_none=True,
+                                default=None)
 
 
 @dataclass(frozen=True)

@@ -424,9 +424,15 @@ def _agreement(ag: Mapping[str, Any], number: int, looks) -> Markup:
                  f" (95% interval {fmt.interval(rho['low'], rho['high'], 2)}), over "
                  f"{len(ag['systems'])} systems; {_shared(ag)}")
     flips = (el("ul", None, *(el("li", None, f"{f['first']} is ahead of {f['second']} under {a} "
-                                  f"by {fmt.gap(f['diff_a'])} but behind under {b} by "
-                                  f"{fmt.gap(f['diff_b'])}") for f in ag["flips"]))
+                                  f"by {fmt.gap(f['diff_a'])}{_held(f.get('held_a'))} but "
+                                  f"behind under {b} by {fmt.gap(f['diff_b'])}"
+                                  f"{_held(f.get('held_b'))}") for f in ag["flips"]))
              if ag["flips"] else el("p", None, "No pair of systems changes order."))
+    if ag["flips"] and any(f.get("held_a") is not None for f in ag["flips"]):
+        flips = el("div", None, flips, el(
+            "p", {"class_": "legend"}, "In N% of resamples: how often that set keeps the order "
+            "when its queries are resampled. A pair a set keeps in under 90% of resamples is "
+            "within that set's own noise; no other set can be expected to agree on it."))
     return _section("agreement", number, f"Agreement: {a} against {b}",
                     el("p", {"class_": "intro"}, "Do the two judgment sets rank the systems "
                        "alike? If they do, decisions made on the silver set would hold up "
@@ -435,6 +441,10 @@ def _agreement(ag: Mapping[str, Any], number: int, looks) -> Markup:
                     _figure(chart, "Points on the dashed line score the same under both sets.",
                             table),
                     el("h3", None, "Pairs that change order"), flips)
+
+
+def _held(share: float | None) -> str:
+    return "" if share is None else f" (in {fmt.share(share)} of resamples)"
 
 
 def _shared(ag: Mapping[str, Any]) -> str:
