@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import pytest
 
@@ -90,3 +91,36 @@ def test_demo_time_covers_synthesis_not_only_the_evaluation(monkeypatch, tmp_pat
                         lambda *a, **k: EvalResult(tmp_path, tmp_path / "r.html", None, 0.01))
     result = demo_job.demo(tmp_path / "demo", encoders=("bm25",))
     assert result.seconds >= 0.3
+
+
+@needs_data
+@pytest.mark.parametrize("option, env, expected", [
+    (None, None, "OUT/cache"), (None, "ENV", "ENV"), ("OPT", "ENV", "OPT")])
+def test_demo_cache_is_the_option_else_the_environment_else_inside_its_output(
+        monkeypatch, tmp_path, option, env, expected):
+    from trawl import silver, synth
+    from trawl.pipeline.evaluation import EvalResult
+
+    seen = {}
+
+    def fake_synthesise(cat, settings, cache_dir=None, quiet=False):
+        seen["synth"] = cache_dir
+        return type("Silver", (), {"queries": {}, "summary": {"items": 0}})()
+
+    def fake_evaluate(*args, cache_dir=None, **kwargs):
+        seen["eval"] = cache_dir
+        return EvalResult(tmp_path, tmp_path / "r.html", None, 0.01)
+
+    monkeypatch.setattr(synth, "synthesise", fake_synthesise)
+    monkeypatch.setattr(silver, "write_silver", lambda prefix, s: [])
+    monkeypatch.setattr(demo_job, "evaluate", fake_evaluate)
+    monkeypatch.setattr("trawl.cli.evaluation._finish", lambda result, as_json: None)
+    if env:
+        monkeypatch.setenv("TRAWL_CACHE_DIR", str(tmp_path / env))
+    else:
+        monkeypatch.delenv("TRAWL_CACHE_DIR", raising=False)
+    args = ["demo", "-o", tmp_path / "OUT", "-e", "bm25", "--quiet"]
+    result = invoke(args + (["--cache-dir", tmp_path / option] if option else []))
+    assert result.exit_code == 0, result.output
+    want = tmp_path / expected
+    assert Path(seen["synth"]) == want and Path(seen["eval"]) == want

@@ -121,14 +121,17 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
               help="Synthesise queries from this many items only (stratified by type).")
 @resamples
 @seed_option
+@click.option("--cache-dir", type=click.Path(file_okay=False), default=None, metavar="DIR",
+              help="Embedding cache folder (default: $TRAWL_CACHE_DIR, else OUTPUT/cache, so "
+                   "the demo leaves nothing outside OUTPUT).")
 @retime_option
 @threads_option
 @limits_options
 @quiet_option
 @json_option
 def demo(output: str, encoders: tuple[str, ...], fuse: tuple[str, ...], sample: int | None,
-         resamples: int, seed: int, retime: bool, threads: int | None, quiet: bool,
-         as_json: bool, **limits: float | str | None) -> None:
+         resamples: int, seed: int, cache_dir: str | None, retime: bool, threads: int | None,
+         quiet: bool, as_json: bool, **limits: float | str | None) -> None:
     """The whole job on the bundled transit catalogue: check it, distil the static
     encoder, synthesise silver queries, evaluate every encoder and the hybrid against the
     silver set and the hand-judged gold set, measure how alike the two sets rank the
@@ -146,6 +149,7 @@ def demo(output: str, encoders: tuple[str, ...], fuse: tuple[str, ...], sample: 
 
     result = run_demo(output, encoders=encoders or DEMO_ENCODERS, fuse=fuse or None,
                       sample=sample, resamples=resamples, seed=seed, retime=retime,
+                      cache_dir=cache_dir,
                       threads=threads, quiet=quiet, notify=step(quiet or as_json),
                       limits=limits_from(limits))
     _finish(result, as_json)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import time
 from collections.abc import Sequence
 from dataclasses import replace
@@ -52,7 +53,8 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
     silver queries, evaluates every system against the silver and the hand-judged gold
     set, and measures how alike the two sets rank the systems. ``static`` among the
     encoders means the distilled model; ``sample`` limits the items queries are
-    synthesised from (for quick runs). The embedding cache defaults to ``OUT/cache``.
+    synthesised from (for quick runs). The embedding cache defaults to
+    ``$TRAWL_CACHE_DIR``, else ``OUT/cache`` (so the demo leaves nothing outside OUT).
     ``threads`` and ``limits`` are passed to ``evaluate``.
     """
     from ..distill import distill_static
@@ -81,7 +83,8 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
         else:
             say(f"distil static encoder from the bundled model into {static_dir}")
             distill_static(static_dir, quiet=quiet)
-    cache = cache_dir if cache_dir is not None else out / "cache"
+    cache = cache_dir if cache_dir is not None else (
+        os.environ.get("TRAWL_CACHE_DIR") or out / "cache")
     silver = synthesise(cat, SynthSettings(sample=sample, seed=seed), cache_dir=cache,
                         quiet=quiet)
     prefix = out / "silver" / "quillfern-silver"
