@@ -344,3 +344,40 @@ def test_point_labels_keep_off_other_markers_and_sit_under_them():
             inside = lx - 4 <= cx <= lx + CHAR_PX * len(name) and ly - FONT_PX <= cy <= ly + 2
             assert not inside, f"label {name!r} covers a marker at {cx, cy}"
     assert svg.index('class="point-labels"') < svg.index('class="point"')
+
+
+def test_identical_systems_stand_side_by_side_instead_of_hiding_each_other():
+    """Two systems with the same scores (an index rebuilt under a second name) drew one
+    marker exactly over the other: the chart showed one system where the table had two."""
+    from trawl.report.charts import DODGE_PX, Point, agreement_scatter, look, quality_latency
+
+    ns = "{http://www.w3.org/2000/svg}"
+
+    def centres(svg: str) -> list[tuple[float, float]]:
+        """Every marker's centre: circles, squares and triangles."""
+        out = []
+        for g in ET.fromstring(svg).iter(f"{ns}g"):
+            if g.get("class") not in ("point", "markers"):
+                continue
+            for shape in g:
+                if shape.tag == f"{ns}circle":
+                    out.append((float(shape.get("cx")), float(shape.get("cy"))))
+                elif shape.tag == f"{ns}rect":
+                    w, h = float(shape.get("width")), float(shape.get("height"))
+                    out.append((float(shape.get("x")) + w / 2, float(shape.get("y")) + h / 2))
+                elif shape.tag == f"{ns}polygon":
+                    xy = [tuple(map(float, v.split(","))) for v in shape.get("points").split()]
+                    out.append((sum(v[0] for v in xy) / 3, max(v[1] for v in xy)))
+        return out
+
+    twins = [Point("bm25", 0.507, 0.583, 0.55, 0.61, look(0)),
+             Point("bm25-copy", 0.507, 0.583, 0.55, 0.61, look(2)),
+             Point("minilm", 0.665, 0.729, 0.70, 0.75, look(1))]
+    for svg in (agreement_scatter(twins, "x", "y", "c", "t"),
+                quality_latency([Point(p.label, 3.0 if p.label != "minilm" else 20.0,
+                                       p.y, p.low, p.high, p.look) for p in twins],
+                                "ndcg@10", "c", "t")):
+        (bm25, copy, minilm) = centres(svg)
+        assert copy[0] - bm25[0] == pytest.approx(DODGE_PX)  # side by side, in order
+        assert abs(copy[1] - bm25[1]) < 6  # the triangle's base is not its centre
+        assert minilm[0] - bm25[0] > 50  # points elsewhere keep their place

@@ -204,6 +204,31 @@ def _place_labels(points: Sequence[tuple[float, float, str]], top: float,
     return out
 
 
+DODGE_PX = 9.0  # side step between markers that would otherwise sit on one another
+SAME_PLACE_PX = 4.0  # centres closer than this on both axes hide each other
+
+
+def _dodge(places: Sequence[tuple[float, float]]) -> list[float]:
+    """x positions where markers that would cover one another (identical systems, or
+    nearly) stand side by side around their shared place, so each stays visible; the
+    values themselves are in the figure's description and table."""
+    out = [x for x, _ in places]
+    groups: list[list[int]] = []
+    for i, (x, y) in enumerate(places):
+        for g in groups:
+            gx, gy = places[g[0]]
+            if abs(x - gx) < SAME_PLACE_PX and abs(y - gy) < SAME_PLACE_PX:
+                g.append(i)
+                break
+        else:
+            groups.append([i])
+    for g in (g for g in groups if len(g) > 1):
+        centre = places[g[0]][0]
+        for k, i in enumerate(g):
+            out[i] = centre + (k - (len(g) - 1) / 2) * DODGE_PX
+    return out
+
+
 # --- charts -------------------------------------------------------------------------------
 
 @dataclass(frozen=True)
@@ -231,19 +256,20 @@ def quality_latency(points: Sequence[Point], metric: str, chart_id: str,
     ticks_x = log_ticks(x_lo, x_hi) or [xs[0]]
     body = [_x_axis(x, ticks_x, bottom, top, "p50 query latency, ms (log scale)"),
             _y_axis(y, nice_ticks(y_lo, y_hi), left, right, metric)]
-    labels = _place_labels([(x(v), y(p.y), p.label) for v, p in zip(xs, points)], top, bottom)
-    for p, v in zip(points, xs):
+    px = _dodge([(x(v), y(p.y)) for v, p in zip(xs, points)])
+    labels = _place_labels([(cx, y(p.y), p.label) for cx, p in zip(px, points)], top, bottom)
+    for p, cx in zip(points, px):
         body.append(el("g", {"class_": "point"},
-                       el("line", {"x1": _n(x(v)), "x2": _n(x(v)), "y1": _n(y(p.low)),
+                       el("line", {"x1": _n(cx), "x2": _n(cx), "y1": _n(y(p.low)),
                                    "y2": _n(y(p.high)), "stroke": p.look.colour,
                                    "class_": "whisker"}),
-                       _caps(x(v), y(p.low), y(p.high), p.look.colour)))
+                       _caps(cx, y(p.low), y(p.high), p.look.colour)))
     # whiskers, then labels over them (with a halo), then the markers over everything
-    body.append(_point_labels([(x(v) + 9, ly, p.label)
-                               for p, v, ly in zip(points, xs, labels)]))
+    body.append(_point_labels([(cx + 9, ly, p.label)
+                               for p, cx, ly in zip(points, px, labels)]))
     body.append(el("g", {"class_": "markers"},
-                   *(marker(p.look.marker, x(v), y(p.y), p.look.colour)
-                     for p, v in zip(points, xs))))
+                   *(marker(p.look.marker, cx, y(p.y), p.look.colour)
+                     for p, cx in zip(points, px))))
     desc = "; ".join(f"{p.label}: {p.y:.3f} ({p.low:.3f} to {p.high:.3f}) at {p.x:.3g} ms"
                      for p in points)
     return _frame(width, height, title, desc, chart_id, *body)
@@ -346,11 +372,13 @@ def agreement_scatter(points: Sequence[Point], x_label: str, y_label: str, chart
     body = [_x_axis(x, ticks, bottom, top, x_label), _y_axis(y, ticks, left, right, y_label),
             el("line", {"x1": _n(x(lo)), "y1": _n(y(lo)), "x2": _n(x(hi)), "y2": _n(y(hi)),
                         "class_": "diagonal"})]
-    labels = _place_labels([(x(p.x), y(p.y), p.label) for p in points], top, bottom)
-    body.append(_point_labels([(x(p.x) + 9, ly, p.label) for p, ly in zip(points, labels)]))
-    for p in points:  # markers over the labels: a label never hides a point
+    px = _dodge([(x(p.x), y(p.y)) for p in points])
+    labels = _place_labels([(cx, y(p.y), p.label) for cx, p in zip(px, points)], top, bottom)
+    body.append(_point_labels([(cx + 9, ly, p.label)
+                               for p, cx, ly in zip(points, px, labels)]))
+    for p, cx in zip(points, px):  # markers over the labels: a label never hides a point
         body.append(el("g", {"class_": "point"},
-                       marker(p.look.marker, x(p.x), y(p.y), p.look.colour)))
+                       marker(p.look.marker, cx, y(p.y), p.look.colour)))
     desc = "; ".join(f"{p.label}: {p.x:.3f} and {p.y:.3f}" for p in points)
     return _frame(right + 170, size, title, desc, chart_id, *body)
 
