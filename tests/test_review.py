@@ -359,6 +359,20 @@ def test_sheet_resaved_by_a_spreadsheet_program_reads_back(world):
     assert result.report.sheets[0].filled == 1
 
 
+def test_importing_an_unfilled_sheet_warns_that_the_output_is_still_silver(world):
+    out = world["dir"] / "sheet.csv"
+    export_sheet(world["qrels"], world["queries"], world["catalogue"], out)
+    res = invoke(["review", "import", out, "-c", world["cat"], "-o", world["dir"] / "r.qrels"])
+    assert res.exit_code == 0, res.output
+    assert "(0 of 10 sheet pairs reviewed, 10 left)" in res.stdout
+    assert res.stderr.strip() == (
+        f"warning: no sheet has a verdict yet, so {world['dir'] / 'r.qrels'} holds the "
+        "silver grades unchanged: machine-made estimates, not reviewed judgments")
+    _fill(out, {("s1", "kb-fares"): "ok"})
+    res = invoke(["review", "import", out, "-c", world["cat"], "-o", world["dir"] / "r.qrels"])
+    assert res.exit_code == 0 and "warning" not in res.stderr
+
+
 def test_half_filled_sheet_imports_what_is_filled_and_says_what_is_left(world):
     out = world["dir"] / "sheet.csv"
     export_sheet(world["qrels"], world["queries"], world["catalogue"], out)

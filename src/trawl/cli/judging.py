@@ -261,6 +261,9 @@ def review_import(sheets: tuple[str, ...], catalogue: str, output: str, base: st
     judgments = sum(len(v) for v in result.qrels.values())
     show({**result.report.as_dict(), "output": output}, as_json,
          lambda d: text.review_import(d, judgments, len(result.qrels)))
+    if result.report.reviewed == 0:
+        echo_err([f"warning: no sheet has a verdict yet, so {output} holds the silver "
+                  "grades unchanged: machine-made estimates, not reviewed judgments"])
 
 
 @main.command()
