@@ -7,6 +7,8 @@ what the vectors mean, and random Gaussian vectors make brute-force checks exact
 from __future__ import annotations
 
 import hashlib
+import json
+from pathlib import Path
 
 import numpy as np
 
@@ -66,3 +68,17 @@ def tiny_catalogue(n: int = 30, path: str = "tiny.jsonl", edit: dict | None = No
         items.append(Item(f"it{i:03d}", ("article", "faq", "screen")[i % 3], title,
                           f"How to {topics[i % len(topics)]} at the branch, case {i}."))
     return Catalogue(path, tuple(items))
+
+
+def files_except_build(folder: Path) -> dict[str, bytes]:
+    """Every file's bytes, with the manifest's volatile build section removed."""
+    out = {}
+    for p in sorted(folder.rglob("*")):
+        if p.is_file():
+            data = p.read_bytes()
+            if p.name == "manifest.json":
+                m = json.loads(data)
+                m.pop("build")
+                data = json.dumps(m).encode()
+            out[str(p.relative_to(folder))] = data
+    return out

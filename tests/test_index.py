@@ -16,21 +16,7 @@ from trawl.index import HnswParams, build_index, open_index, retrieve
 from trawl.runs import rank_order
 
 from .conftest import invoke
-from .retrieval_fakes import FakeLoader, text_vector, tiny_catalogue
-
-
-def files_except_build(folder: Path) -> dict[str, bytes]:
-    """Every file's bytes, with the manifest's volatile build section removed."""
-    out = {}
-    for p in sorted(folder.rglob("*")):
-        if p.is_file():
-            data = p.read_bytes()
-            if p.name == "manifest.json":
-                m = json.loads(data)
-                m.pop("build")
-                data = json.dumps(m).encode()
-            out[str(p.relative_to(folder))] = data
-    return out
+from .retrieval_fakes import FakeLoader, files_except_build, text_vector, tiny_catalogue
 
 
 def test_rebuild_of_unchanged_catalogue_embeds_nothing_and_is_byte_identical(tmp_path):

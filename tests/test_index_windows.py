@@ -5,13 +5,12 @@ the window and chunk sizes."""
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 import numpy as np
 import pytest
 
-from tests.retrieval_fakes import FakeLoader
+from tests.retrieval_fakes import FakeLoader, files_except_build
 from trawl.catalogue import Catalogue, Item
 from trawl.index import build, build_index
 from trawl.index.rowfile import RowFile
@@ -22,19 +21,6 @@ def repeating_catalogue(n: int = 40, distinct: int = 17) -> Catalogue:
     items = tuple(Item(f"it{i:03d}", "faq", f"topic {(7 * i) % distinct}",
                        "word " * ((7 * i) % distinct % 5)) for i in range(n))
     return Catalogue("repeats.jsonl", items)
-
-
-def index_bytes(folder: Path) -> dict[str, bytes]:
-    out = {}
-    for p in sorted(folder.rglob("*")):
-        if p.is_file():
-            data = p.read_bytes()
-            if p.name == "manifest.json":
-                m = json.loads(data)
-                m.pop("build")
-                data = json.dumps(m).encode()
-            out[p.name] = data
-    return out
 
 
 def small_windows(monkeypatch) -> None:
@@ -56,7 +42,7 @@ def test_repeats_across_windows_are_embedded_once_and_the_index_does_not_change(
     assert sorted(texts) == sorted(set(cat.texts()))  # each distinct text once
     assert max(map(len, calls)) == 3 and len(calls) > 40 // 7
     assert (info.embedded, info.reused) == (whole.embedded, whole.reused) == (40, 0)
-    assert index_bytes(tmp_path / "windows") == index_bytes(tmp_path / "whole")
+    assert files_except_build(tmp_path / "windows") == files_except_build(tmp_path / "whole")
 
 
 def test_a_resumed_windowed_build_embeds_the_chunks_an_uninterrupted_one_would(
@@ -78,7 +64,7 @@ def test_a_resumed_windowed_build_embeds_the_chunks_an_uninterrupted_one_would(
     assert resumed.fake.document_calls == clean.fake.document_calls[k:]
     done = {t for call in clean.fake.document_calls[:k] for t in call}
     assert info.reused == sum(t in done for t in cat.texts()) > 0
-    assert index_bytes(tmp_path / "idx") == index_bytes(tmp_path / "clean")
+    assert files_except_build(tmp_path / "idx") == files_except_build(tmp_path / "clean")
 
 
 def test_static_models_embed_larger_chunks():
