@@ -5,7 +5,6 @@ the window and chunk sizes."""
 
 from __future__ import annotations
 
-from pathlib import Path
 
 import numpy as np
 import pytest
