@@ -5,7 +5,6 @@ the window and chunk sizes."""
 
 from __future__ import annotations
 
-
 import numpy as np
 import pytest
 
