@@ -163,22 +163,30 @@ def agree(qrels_a: Qrels, qrels_b: Qrels, runs: Sequence[Run], metric: str = "nd
     rank_a, rank_b = _rank_desc(mean_a), _rank_desc(mean_b)
     systems = tuple(SystemScore(n, float(x), float(y), float(ra), float(rb))
                     for n, x, y, ra, rb in zip(names, mean_a, mean_b, rank_a, rank_b))
+    identical = sum(1 for q in shared if qrels_a[q] == qrels_b[q])
+    return Agreement(column, len(qids_a), len(qids_b), len(shared), systems,
+                     Correlation(tau, *tau_ci), Correlation(rho, *rho_ci),
+                     _flips(names, mean_a, mean_b, boot_a, boot_b),
+                     resamples, seed, confidence, note, identical)
+
+
+def _flips(names: Sequence[str], mean_a: np.ndarray, mean_b: np.ndarray,
+           boot_a: np.ndarray | None, boot_b: np.ndarray | None) -> tuple[Flip, ...]:
+    """Pairs ordered one way under A and the other under B, widest disagreement first,
+    with the share of bootstrap replicates in which each set keeps its order."""
     flips = []
-    for i, j in combinations(range(len(runs)), 2):
+    for i, j in combinations(range(len(names)), 2):
         da, db = mean_a[i] - mean_a[j], mean_b[i] - mean_b[j]
         if da * db < 0:
             first, second = (i, j) if da > 0 else (j, i)
             sign = 1 if da > 0 else -1
-            held = ((None, None) if boot_a is None else
+            held = ((None, None) if boot_a is None or boot_b is None else
                     (float(np.mean(boot_a[:, first] > boot_a[:, second])),
                      float(np.mean(boot_b[:, first] < boot_b[:, second]))))
             flips.append(Flip(names[first], names[second], float(sign * da), float(sign * db),
                               *held))
     flips.sort(key=lambda f: (-(f.diff_a - f.diff_b), f.first, f.second))
-    identical = sum(1 for q in shared if qrels_a[q] == qrels_b[q])
-    return Agreement(column, len(qids_a), len(qids_b), len(shared), systems,
-                     Correlation(tau, *tau_ci), Correlation(rho, *rho_ci), tuple(flips),
-                     resamples, seed, confidence, note, identical)
+    return tuple(flips)
 
 
 def _replicate_means(scores: np.ndarray, shared: np.ndarray, only: np.ndarray) -> np.ndarray:

@@ -81,6 +81,11 @@ def share(v: float | None) -> str:
     return MISSING if _missing(v) else f"{100 * v:.0f}%"
 
 
+def held(v: float | None) -> str:
+    """' (in N% of resamples)' after a pair's gap, or nothing without an interval."""
+    return "" if v is None else f" (in {share(v)} of resamples)"
+
+
 BETTER, WORSE, UNCLEAR = "▲", "▼", "·"
 MARK_LEGEND = (f"{BETTER} better than the baseline, {WORSE} worse, {UNCLEAR} no clear "
                "difference (corrected p at or above alpha)")

@@ -424,9 +424,9 @@ def _agreement(ag: Mapping[str, Any], number: int, looks) -> Markup:
                  f" (95% interval {fmt.interval(rho['low'], rho['high'], 2)}), over "
                  f"{len(ag['systems'])} systems; {_shared(ag)}")
     flips = (el("ul", None, *(el("li", None, f"{f['first']} is ahead of {f['second']} under {a} "
-                                  f"by {fmt.gap(f['diff_a'])}{_held(f.get('held_a'))} but "
+                                  f"by {fmt.gap(f['diff_a'])}{fmt.held(f.get('held_a'))} but "
                                   f"behind under {b} by {fmt.gap(f['diff_b'])}"
-                                  f"{_held(f.get('held_b'))}") for f in ag["flips"]))
+                                  f"{fmt.held(f.get('held_b'))}") for f in ag["flips"]))
              if ag["flips"] else el("p", None, "No pair of systems changes order."))
     if ag["flips"] and any(f.get("held_a") is not None for f in ag["flips"]):
         flips = el("div", None, flips, el(
@@ -441,10 +441,6 @@ def _agreement(ag: Mapping[str, Any], number: int, looks) -> Markup:
                     _figure(chart, "Points on the dashed line score the same under both sets.",
                             table),
                     el("h3", None, "Pairs that change order"), flips)
-
-
-def _held(share: float | None) -> str:
-    return "" if share is None else f" (in {fmt.share(share)} of resamples)"
 
 
 def _shared(ag: Mapping[str, Any]) -> str:

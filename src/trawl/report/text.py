@@ -249,8 +249,8 @@ def agreement(d: Mapping[str, Any]) -> str:
     else:
         out.append(f"{len(d['flips'])} pair(s) change order (better under A, worse under B):")
         out += [f"  {f['first']} vs {f['second']}: ahead by {fmt.gap(f['diff_a'])} under A"
-                f"{_held(f.get('held_a'))}, behind by {fmt.gap(f['diff_b'])} under B"
-                f"{_held(f.get('held_b'))}" for f in d["flips"]]
+                f"{fmt.held(f.get('held_a'))}, behind by {fmt.gap(f['diff_b'])} under B"
+                f"{fmt.held(f.get('held_b'))}" for f in d["flips"]]
         if any(f.get("held_a") is not None for f in d["flips"]):
             out.append("(in N% of resamples: how often that set keeps the order over "
                        "resampled queries; a pair a set keeps in under 90% is within its "
@@ -258,10 +258,6 @@ def agreement(d: Mapping[str, Any]) -> str:
     out.append("Scores under silver (machine-made) judgments are estimates; tau and rho say "
                "how far they can be trusted to choose between systems.")
     return "\n".join(out)
-
-
-def _held(share: float | None) -> str:
-    return "" if share is None else f" (in {fmt.share(share)} of resamples)"
 
 
 def review_export(d: Mapping[str, Any], scrubbed: bool) -> tuple[str, list[str]]:
