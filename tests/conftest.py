@@ -48,6 +48,24 @@ def cranfield_reference_vectors(cranfield):
         texts, batch_size=32, normalize_embeddings=True, convert_to_numpy=True)
 
 
+@pytest.fixture(scope="session")
+def distilled_static(tmp_path_factory) -> Path:
+    """The static encoder distilled from the bundled model (256 dims), made once per
+    session with every network connection refused: distilling must work offline, and
+    the Cranfield checks of the static encoder and of silver judgments share it."""
+    import socket
+
+    from trawl.distill import distill_static
+
+    def no_network(*args, **kw):
+        raise AssertionError("distill tried to open a network connection")
+
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(socket, "socket", no_network)
+        mp.setattr(socket, "create_connection", no_network)
+        return distill_static(tmp_path_factory.mktemp("distilled") / "static", quiet=True)
+
+
 def invoke(args: list[str], **kw):
     """Run the real CLI in-process; returns click's Result."""
     from click.testing import CliRunner

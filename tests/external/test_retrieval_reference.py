@@ -4,7 +4,6 @@ ir_measures (trec_eval's measures) and the Cranfield collection's reference figu
 from __future__ import annotations
 
 import math
-import socket
 
 import numpy as np
 import pytest
@@ -44,7 +43,8 @@ def scored(qrels, run, *measures):
 def minilm_cranfield(cran, work):
     """All of Cranfield indexed with minilm: embedded once, shared by the checks below."""
     cat = cran[0]
-    build_index(cat, "minilm", work / "minilm", cache_dir=work / "cache", quiet=True)
+    # the session's embedding cache: the Cranfield silver check reuses these vectors
+    build_index(cat, "minilm", work / "minilm", quiet=True)
     return open_index(work / "minilm", cat, "minilm")
 
 
@@ -119,7 +119,7 @@ def test_bm25_reproduces_the_cranfield_reference(cran, work):
     # Reference: ../shared/data/cranfield/README.md (BM25 from bm25s, English stop words):
     # nDCG@10 0.352, MRR@10 0.507, Recall@100 0.709; tolerance from the issue: +/- 0.01.
     cat, queries, qrels = cran
-    build_index(cat, "bm25", work / "bm25", cache_dir=work / "cache", quiet=True)
+    build_index(cat, "bm25", work / "bm25", quiet=True)
     run = open_index(work / "bm25", cat, "bm25").search(queries, k=100, quiet=True)
     m = scored(qrels, run, ir_measures.nDCG @ 10, ir_measures.RR @ 10, ir_measures.R @ 100)
     assert m[ir_measures.nDCG @ 10] == pytest.approx(0.352, abs=0.01)
@@ -145,7 +145,7 @@ def test_hnsw_recall_at_10_against_exact_on_real_embeddings(cran, work, minilm_c
     # Goal from the issue: recall@10 >= 0.98 at default settings on real embeddings
     # (Cranfield abstracts and queries with minilm). The vectors come from the cache.
     cat, queries, _ = cran
-    build_index(cat, "minilm", work / "hnsw", ann="hnsw", cache_dir=work / "cache", quiet=True)
+    build_index(cat, "minilm", work / "hnsw", ann="hnsw", quiet=True)
     approx = open_index(work / "hnsw", cat, "minilm").search(queries, k=10, quiet=True)
     exact = minilm_cranfield.search(queries, k=10, quiet=True)
     hits = sum(len({i for i, _ in approx.results[q]} & {i for i, _ in exact.results[q]})
@@ -156,22 +156,14 @@ def test_hnsw_recall_at_10_against_exact_on_real_embeddings(cran, work, minilm_c
 
 
 @pytest.mark.slow
-def test_distill_runs_offline_and_gives_a_static_encoder(cran, work, monkeypatch):
-    # Offline: any socket use fails the test. Reference figure for the distilled encoder on
-    # Cranfield (../shared/data/cranfield/README.md, model2vec, 256 dims): nDCG@10 0.274;
-    # tolerance +/- 0.01 (our choice: PCA and the SIF weights are deterministic on CPU).
-    from trawl.distill import distill_static
-
-    def no_network(*args, **kw):
-        raise AssertionError("distill tried to open a network connection")
-
-    monkeypatch.setattr(socket, "socket", no_network)
-    monkeypatch.setattr(socket, "create_connection", no_network)
-    path = distill_static(work / "static", pca_dims=256, quiet=True)
-    monkeypatch.undo()
+def test_distill_runs_offline_and_gives_a_static_encoder(cran, work, distilled_static):
+    # Offline: the session fixture refuses every socket while distilling. Reference figure
+    # for the distilled encoder on Cranfield (../shared/data/cranfield/README.md,
+    # model2vec, 256 dims): nDCG@10 0.274; tolerance +/- 0.01 (our choice: PCA and the
+    # SIF weights are deterministic on CPU).
     cat, queries, qrels = cran
-    spec = f"static:{path}"
-    info = build_index(cat, spec, work / "static-idx", cache_dir=work / "cache", quiet=True)
+    spec = f"static:{distilled_static}"
+    info = build_index(cat, spec, work / "static-idx", quiet=True)
     assert info.dim == 256
     run = open_index(work / "static-idx", cat, spec).search(queries, k=100, quiet=True)
     m = scored(qrels, run, ir_measures.nDCG @ 10)

@@ -15,7 +15,6 @@ import pytest
 from scipy.stats import kendalltau, pearsonr
 
 from trawl.catalogue import load_catalogue
-from trawl.distill import distill_static
 from trawl.fusion import reciprocal_rank_fusion
 from trawl.index import retrieve
 from trawl.judgments import read_qrels
@@ -29,13 +28,13 @@ SYSTEMS = ("minilm", "minilm-int8", "static", "bm25", "rrf")
 
 
 @pytest.fixture(scope="module")
-def setup(cranfield, tmp_path_factory):
-    work = tmp_path_factory.mktemp("silver-cranfield")
-    static = distill_static(work / "static", quiet=True)
+def setup(cranfield, distilled_static):
     cat = load_catalogue(cranfield / "catalogue.jsonl")
+    # cache None: the session's embedding cache, where the retrieval checks have already
+    # put minilm's vectors of every abstract
     return cat, read_queries(cranfield / "queries.tsv"), read_qrels(cranfield / "qrels.txt"), \
-        {"minilm": "minilm", "minilm-int8": "minilm-int8", "static": f"static:{static}",
-         "bm25": "bm25"}, work / "cache"
+        {"minilm": "minilm", "minilm-int8": "minilm-int8",
+         "static": f"static:{distilled_static}", "bm25": "bm25"}, None
 
 
 def scores(cat, queries, qrels, specs, cache) -> list[float]:
