@@ -223,6 +223,24 @@ def test_flip_shares_follow_each_sets_own_noise():
     assert agree(good, bad, runs, resamples=0).flips[0].held_a is None
 
 
+def test_firm_pairs_count_what_a_settles_and_b_swaps():
+    good = _qrels(40)
+    bad = {q: {i: 1 for i in ITEMS if i not in rel} for q, rel in good.items()}
+    apart = _systems(good)  # noise 0.2 ... 5.0: every pair far apart
+    same = agree(good, good, apart, resamples=1000).firm
+    assert (same.threshold, same.settled, same.pairs, same.swapped) == (0.9, 10, 10, 0)
+    inverted = agree(good, bad, apart, resamples=1000).firm
+    assert inverted.settled == 10 and inverted.swapped == 10
+    # two systems A barely separates (kept in about 60% of replicates, as above): the
+    # swap is within A's noise, so nothing is settled and nothing counts as swapped
+    close = agree(good, bad, _systems(good, noises=(1.0, 1.1), seed=4), resamples=4000,
+                  seed=2)
+    assert (close.firm.settled, close.firm.swapped, len(close.flips)) == (0, 0, 1)
+    assert close.as_dict()["firm_pairs"] == {"threshold": 0.9, "settled": 0, "pairs": 1,
+                                             "swapped": 0}
+    assert agree(good, bad, apart, resamples=0).as_dict()["firm_pairs"] is None
+
+
 def test_no_resamples_no_interval():
     q = _qrels(10)
     res = agree(q, q, _systems(q), resamples=0)
@@ -264,6 +282,8 @@ def test_agree_cli_table_and_json(tmp_path):
     assert "1 pair(s) change order (better under A, worse under B):" in lines
     assert any(line.startswith("  sys0 vs sys1: ahead by ") and "under A (in 100% of "
                "resamples), behind by" in line for line in lines)
+    assert any(line.startswith("A keeps the order of 1 of the 1 pairs of systems in at least "
+                               "90% of resamples; B swaps 1 of them") for line in lines)
     assert "with 2 systems a rank correlation" in res.stdout
     assert "estimates" in lines[-1]
     js = json.loads(invoke(["agree", tmp_path / "a.qrels", tmp_path / "b.qrels", *paths,

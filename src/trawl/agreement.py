@@ -63,6 +63,25 @@ class Flip:
     held_b: float | None = None
 
 
+FIRM = 0.9  # share of replicates in which a set must keep a pair's order to settle it
+
+
+@dataclass(frozen=True)
+class FirmPairs:
+    """The pairs of systems set A settles (keeps in order in at least ``threshold`` of
+    bootstrap replicates) and how many of those B orders the other way. Swaps outside
+    these pairs are within A's own noise; swaps inside them are real disagreements."""
+
+    threshold: float
+    settled: int
+    pairs: int
+    swapped: int
+
+    def as_dict(self) -> dict[str, Any]:
+        return {"threshold": self.threshold, "settled": self.settled, "pairs": self.pairs,
+                "swapped": self.swapped}
+
+
 @dataclass(frozen=True)
 class Agreement:
     """How alike two judgment sets rank a set of systems."""
@@ -80,6 +99,7 @@ class Agreement:
     confidence: float
     note: str | None = None  # stats.TOO_FEW when a set has too few queries for an interval
     identical: int = 0  # shared queries both sets judge exactly alike (item by item)
+    firm: FirmPairs | None = None  # None without an interval
 
     def as_dict(self) -> dict[str, Any]:
         return {
@@ -93,6 +113,7 @@ class Agreement:
                       for f in self.flips],
             "bootstrap": {"resamples": self.resamples, "seed": self.seed,
                           "confidence": self.confidence, "note": self.note},
+            "firm_pairs": self.firm.as_dict() if self.firm else None,
         }
 
 
@@ -167,7 +188,21 @@ def agree(qrels_a: Qrels, qrels_b: Qrels, runs: Sequence[Run], metric: str = "nd
     return Agreement(column, len(qids_a), len(qids_b), len(shared), systems,
                      Correlation(tau, *tau_ci), Correlation(rho, *rho_ci),
                      _flips(names, mean_a, mean_b, boot_a, boot_b),
-                     resamples, seed, confidence, note, identical)
+                     resamples, seed, confidence, note, identical,
+                     None if boot_a is None else _firm(mean_a, mean_b, boot_a))
+
+
+def _firm(mean_a: np.ndarray, mean_b: np.ndarray, boot_a: np.ndarray) -> FirmPairs:
+    """Which pairs A settles, and how many of them B swaps (see ``FirmPairs``)."""
+    settled = swapped = 0
+    pairs = list(combinations(range(len(mean_a)), 2))
+    for i, j in pairs:
+        da = mean_a[i] - mean_a[j]
+        kept = np.mean(np.sign(boot_a[:, i] - boot_a[:, j]) == np.sign(da)) if da else 0.0
+        if kept >= FIRM:
+            settled += 1
+            swapped += bool(da * (mean_b[i] - mean_b[j]) < 0)
+    return FirmPairs(FIRM, settled, len(pairs), swapped)
 
 
 def _flips(names: Sequence[str], mean_a: np.ndarray, mean_b: np.ndarray,

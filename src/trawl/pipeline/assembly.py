@@ -113,7 +113,8 @@ def agreement_entry(a: str, b: str, labels: Mapping[str, str],
     return AgreementInfo(a, b, labels[a], labels[b], ag["metric"], ag["shared_queries"],
                          ag["queries_a"], ag["queries_b"], **_typed(AgreementInfo, {
                              "tau": ag["kendall_tau_b"], "rho": ag["spearman_rho"],
-                             "systems": ag["systems"], "flips": ag["flips"]}))
+                             "systems": ag["systems"], "flips": ag["flips"],
+                             "firm_pairs": ag["firm_pairs"]}))
 
 
 def scrub_note(counts: Mapping[str, int]) -> str:

@@ -260,6 +260,17 @@ class Flip:
 
 
 @dataclass(frozen=True)
+class FirmPairs:
+    """The pairs of systems set A settles and how many of them set B swaps."""
+
+    threshold: float = _doc("share of bootstrap replicates in which A must keep a pair's "
+                            "order for the pair to count as settled")
+    settled: int
+    pairs: int
+    swapped: int = _doc("settled pairs that B orders the other way")
+
+
+@dataclass(frozen=True)
 class AgreementInfo:
     """How alike two judgment sets rank the systems."""
 
@@ -275,6 +286,8 @@ class AgreementInfo:
     rho: Correlation = _doc("Spearman's rho between the two rankings")
     systems: tuple[RankedSystem, ...]
     flips: tuple[Flip, ...]
+    firm_pairs: FirmPairs | None = _doc("absent without an interval", omit_none=True,
+                                        default=None)
 
 
 @dataclass(frozen=True)

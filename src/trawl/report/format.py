@@ -81,6 +81,22 @@ def share(v: float | None) -> str:
     return MISSING if _missing(v) else f"{100 * v:.0f}%"
 
 
+def settled(firm: Mapping[str, Any] | None, a: str, b: str) -> str | None:
+    """One sentence on the pairs set ``a`` settles and how many of them ``b`` swaps
+    (``agreement.FirmPairs.as_dict()``), or None without an interval."""
+    if not firm:
+        return None
+    share = f"{100 * firm['threshold']:.0f}%"
+    head = (f"{a} keeps the order of {firm['settled']} of the {firm['pairs']} pairs of "
+            f"systems in at least {share} of resamples")
+    if not firm["settled"]:
+        return head + f", so no pair is settled by {a}'s own queries."
+    if not firm["swapped"]:
+        return head + f"; {b} orders every one of them the same way."
+    return head + (f"; {b} swaps {firm['swapped']} of them, a disagreement {a}'s own noise "
+                   "does not explain.")
+
+
 def held(v: float | None) -> str:
     """' (in N% of resamples)' after a pair's gap, or nothing without an interval."""
     return "" if v is None else f" (in {share(v)} of resamples)"

@@ -428,11 +428,12 @@ def _agreement(ag: Mapping[str, Any], number: int, looks) -> Markup:
                                   f"behind under {b} by {fmt.gap(f['diff_b'])}"
                                   f"{fmt.held(f.get('held_b'))}") for f in ag["flips"]))
              if ag["flips"] else el("p", None, "No pair of systems changes order."))
-    if ag["flips"] and any(f.get("held_a") is not None for f in ag["flips"]):
+    firm = fmt.settled(ag.get("firm_pairs"), a, b)
+    if firm:
         flips = el("div", None, flips, el(
-            "p", {"class_": "legend"}, "In N% of resamples: how often that set keeps the order "
-            "when its queries are resampled. A pair a set keeps in under 90% of resamples is "
-            "within that set's own noise; no other set can be expected to agree on it."))
+            "p", {"class_": "legend"}, firm + (" In N% of resamples: how often that set keeps "
+                                               "the order when its queries are resampled."
+                                               if ag["flips"] else "")))
     return _section("agreement", number, f"Agreement: {a} against {b}",
                     el("p", {"class_": "intro"}, "Do the two judgment sets rank the systems "
                        "alike? If they do, decisions made on the silver set would hold up "

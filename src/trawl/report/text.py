@@ -251,10 +251,10 @@ def agreement(d: Mapping[str, Any]) -> str:
         out += [f"  {f['first']} vs {f['second']}: ahead by {fmt.gap(f['diff_a'])} under A"
                 f"{fmt.held(f.get('held_a'))}, behind by {fmt.gap(f['diff_b'])} under B"
                 f"{fmt.held(f.get('held_b'))}" for f in d["flips"]]
-        if any(f.get("held_a") is not None for f in d["flips"]):
-            out.append("(in N% of resamples: how often that set keeps the order over "
-                       "resampled queries; a pair a set keeps in under 90% is within its "
-                       "noise, and no other set can be expected to agree on it)")
+    firm = fmt.settled(d.get("firm_pairs"), "A", "B")
+    if firm:
+        out.append(firm + (" ('in N% of resamples': how often a set keeps a pair's order "
+                           "when its queries are resampled)" if d["flips"] else ""))
     out.append("Scores under silver (machine-made) judgments are estimates; tau and rho say "
                "how far they can be trusted to choose between systems.")
     return "\n".join(out)
