@@ -223,21 +223,21 @@ def test_flip_shares_follow_each_sets_own_noise():
     assert agree(good, bad, runs, resamples=0).flips[0].held_a is None
 
 
-def test_firm_pairs_count_what_a_settles_and_b_swaps():
+def test_firm_pairs_count_what_each_set_settles_and_the_other_swaps():
     good = _qrels(40)
     bad = {q: {i: 1 for i in ITEMS if i not in rel} for q, rel in good.items()}
     apart = _systems(good)  # noise 0.2 ... 5.0: every pair far apart
-    same = agree(good, good, apart, resamples=1000).firm
-    assert (same.threshold, same.settled, same.pairs, same.swapped) == (0.9, 10, 10, 0)
+    same = agree(good, good, apart, resamples=1000).as_dict()["firm_pairs"]
+    assert same == {"threshold": 0.9, "pairs": 10, "settled_a": 10, "swapped_by_b": 0,
+                    "settled_b": 10, "swapped_by_a": 0}
     inverted = agree(good, bad, apart, resamples=1000).firm
-    assert inverted.settled == 10 and inverted.swapped == 10
+    assert (inverted.settled_a, inverted.swapped_by_b) == (10, 10)
+    assert inverted.swapped_by_a == inverted.settled_b > 0
     # two systems A barely separates (kept in about 60% of replicates, as above): the
-    # swap is within A's noise, so nothing is settled and nothing counts as swapped
+    # swap is within A's noise, so A settles nothing and nothing of A's is swapped
     close = agree(good, bad, _systems(good, noises=(1.0, 1.1), seed=4), resamples=4000,
                   seed=2)
-    assert (close.firm.settled, close.firm.swapped, len(close.flips)) == (0, 0, 1)
-    assert close.as_dict()["firm_pairs"] == {"threshold": 0.9, "settled": 0, "pairs": 1,
-                                             "swapped": 0}
+    assert (close.firm.settled_a, close.firm.swapped_by_b, len(close.flips)) == (0, 0, 1)
     assert agree(good, bad, apart, resamples=0).as_dict()["firm_pairs"] is None
 
 
@@ -282,8 +282,10 @@ def test_agree_cli_table_and_json(tmp_path):
     assert "1 pair(s) change order (better under A, worse under B):" in lines
     assert any(line.startswith("  sys0 vs sys1: ahead by ") and "under A (in 100% of "
                "resamples), behind by" in line for line in lines)
-    assert any(line.startswith("A keeps the order of 1 of the 1 pairs of systems in at least "
-                               "90% of resamples; B swaps 1 of them") for line in lines)
+    assert any(line.startswith("Of the 1 pairs of systems, A settles 1 (keeps their order in "
+                               "at least 90% of resamples) and B swaps 1 of them; B settles 1 "
+                               "and A swaps 1 of them. A swap of a settled pair")
+               for line in lines)
     assert "with 2 systems a rank correlation" in res.stdout
     assert "estimates" in lines[-1]
     js = json.loads(invoke(["agree", tmp_path / "a.qrels", tmp_path / "b.qrels", *paths,

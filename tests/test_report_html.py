@@ -278,13 +278,16 @@ def test_a_flip_by_a_rounding_hair_does_not_read_as_a_tie():
 def test_agreement_says_how_firmly_each_set_holds_the_pairs_that_swap():
     bundle = copy.deepcopy(sample_bundle())
     bundle["agreement"]["flips"][0].update(held_a=0.61, held_b=0.97)
-    bundle["agreement"]["firm_pairs"] = {"threshold": 0.9, "settled": 2, "pairs": 3,
-                                         "swapped": 0}
+    bundle["agreement"]["firm_pairs"] = {"threshold": 0.9, "pairs": 3, "settled_a": 2,
+                                         "swapped_by_b": 0, "settled_b": 1,
+                                         "swapped_by_a": 0}
     text = " ".join(" ".join(_parse(render_html(bundle)).text).split())
     assert ("minilm is ahead of bm25 under silver set by 0.140 (in 61% of resamples) but "
             "behind under gold set by 0.020 (in 97% of resamples)") in text
-    assert ("silver set keeps the order of 2 of the 3 pairs of systems in at least 90% of "
-            "resamples; gold set orders every one of them the same way.") in text
+    assert ("Of the 3 pairs of systems, silver set settles 2 (keeps their order in at least "
+            "90% of resamples) and gold set swaps 0 of them; gold set settles 1 and silver set "
+            "swaps 0 of them.") in text
+    assert "noise does not explain" not in text
 
 
 def test_column_headers_wrap_between_name_parts_not_inside_words():

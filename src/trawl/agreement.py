@@ -68,18 +68,22 @@ FIRM = 0.9  # share of replicates in which a set must keep a pair's order to set
 
 @dataclass(frozen=True)
 class FirmPairs:
-    """The pairs of systems set A settles (keeps in order in at least ``threshold`` of
-    bootstrap replicates) and how many of those B orders the other way. Swaps outside
-    these pairs are within A's own noise; swaps inside them are real disagreements."""
+    """The pairs of systems each set settles (keeps in order in at least ``threshold`` of
+    bootstrap replicates) and how many of those the other set orders the other way. A
+    swap of a pair neither set settles is within their noise; a swap of a pair the
+    reference set settles is a real disagreement."""
 
     threshold: float
-    settled: int
     pairs: int
-    swapped: int
+    settled_a: int
+    swapped_by_b: int
+    settled_b: int
+    swapped_by_a: int
 
     def as_dict(self) -> dict[str, Any]:
-        return {"threshold": self.threshold, "settled": self.settled, "pairs": self.pairs,
-                "swapped": self.swapped}
+        return {"threshold": self.threshold, "pairs": self.pairs,
+                "settled_a": self.settled_a, "swapped_by_b": self.swapped_by_b,
+                "settled_b": self.settled_b, "swapped_by_a": self.swapped_by_a}
 
 
 @dataclass(frozen=True)
@@ -189,20 +193,26 @@ def agree(qrels_a: Qrels, qrels_b: Qrels, runs: Sequence[Run], metric: str = "nd
                      Correlation(tau, *tau_ci), Correlation(rho, *rho_ci),
                      _flips(names, mean_a, mean_b, boot_a, boot_b),
                      resamples, seed, confidence, note, identical,
-                     None if boot_a is None else _firm(mean_a, mean_b, boot_a))
+                     None if boot_a is None or boot_b is None
+                     else _firm(mean_a, mean_b, boot_a, boot_b))
 
 
-def _firm(mean_a: np.ndarray, mean_b: np.ndarray, boot_a: np.ndarray) -> FirmPairs:
-    """Which pairs A settles, and how many of them B swaps (see ``FirmPairs``)."""
-    settled = swapped = 0
+def _firm(mean_a: np.ndarray, mean_b: np.ndarray, boot_a: np.ndarray,
+          boot_b: np.ndarray) -> FirmPairs:
+    """Which pairs each set settles, and how many of them the other swaps."""
     pairs = list(combinations(range(len(mean_a)), 2))
-    for i, j in pairs:
-        da = mean_a[i] - mean_a[j]
-        kept = np.mean(np.sign(boot_a[:, i] - boot_a[:, j]) == np.sign(da)) if da else 0.0
-        if kept >= FIRM:
-            settled += 1
-            swapped += bool(da * (mean_b[i] - mean_b[j]) < 0)
-    return FirmPairs(FIRM, settled, len(pairs), swapped)
+
+    def settled(mean: np.ndarray, boot: np.ndarray, other: np.ndarray) -> tuple[int, int]:
+        n = swapped = 0
+        for i, j in pairs:
+            d = mean[i] - mean[j]
+            if d and np.mean(np.sign(boot[:, i] - boot[:, j]) == np.sign(d)) >= FIRM:
+                n += 1
+                swapped += bool(d * (other[i] - other[j]) < 0)
+        return n, swapped
+
+    return FirmPairs(FIRM, len(pairs), *settled(mean_a, boot_a, mean_b),
+                     *settled(mean_b, boot_b, mean_a))
 
 
 def _flips(names: Sequence[str], mean_a: np.ndarray, mean_b: np.ndarray,

@@ -261,13 +261,15 @@ class Flip:
 
 @dataclass(frozen=True)
 class FirmPairs:
-    """The pairs of systems set A settles and how many of them set B swaps."""
+    """The pairs of systems each set settles and how many of them the other swaps."""
 
-    threshold: float = _doc("share of bootstrap replicates in which A must keep a pair's "
-                            "order for the pair to count as settled")
-    settled: int
+    threshold: float = _doc("share of bootstrap replicates in which a set must keep a "
+                            "pair's order for the pair to count as settled")
     pairs: int
-    swapped: int = _doc("settled pairs that B orders the other way")
+    settled_a: int
+    swapped_by_b: int = _doc("pairs A settles that B orders the other way")
+    settled_b: int
+    swapped_by_a: int = _doc("pairs B settles that A orders the other way")
 
 
 @dataclass(frozen=True)

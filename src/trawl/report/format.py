@@ -82,19 +82,17 @@ def share(v: float | None) -> str:
 
 
 def settled(firm: Mapping[str, Any] | None, a: str, b: str) -> str | None:
-    """One sentence on the pairs set ``a`` settles and how many of them ``b`` swaps
+    """One sentence on the pairs each set settles and how many of them the other swaps
     (``agreement.FirmPairs.as_dict()``), or None without an interval."""
     if not firm:
         return None
-    share = f"{100 * firm['threshold']:.0f}%"
-    head = (f"{a} keeps the order of {firm['settled']} of the {firm['pairs']} pairs of "
-            f"systems in at least {share} of resamples")
-    if not firm["settled"]:
-        return head + f", so no pair is settled by {a}'s own queries."
-    if not firm["swapped"]:
-        return head + f"; {b} orders every one of them the same way."
-    return head + (f"; {b} swaps {firm['swapped']} of them, a disagreement {a}'s own noise "
-                   "does not explain.")
+    out = (f"Of the {firm['pairs']} pairs of systems, {a} settles {firm['settled_a']} (keeps "
+           f"their order in at least {100 * firm['threshold']:.0f}% of resamples) and {b} "
+           f"swaps {firm['swapped_by_b']} of them; {b} settles {firm['settled_b']} and {a} "
+           f"swaps {firm['swapped_by_a']} of them.")
+    if firm["swapped_by_b"] or firm["swapped_by_a"]:
+        out += " A swap of a settled pair is a disagreement that set's own noise does not explain."
+    return out
 
 
 def held(v: float | None) -> str:
