@@ -290,6 +290,9 @@ def agree(qrels_a: str, qrels_b: str, runs: tuple[str, ...], names: tuple[str, .
     between the two system rankings with 95% bootstrap intervals over queries (shared
     queries are drawn together for both sets), and the pairs of systems whose order
     flips. High tau means the cheaper set can be trusted to choose between systems.
+    Each flip says how often each set keeps its order over resampled queries, and the
+    pairs each set settles (keeps in order in 90% of resamples) are counted with the
+    other set's swaps: a flip on a pair neither set settles is noise, not disagreement.
 
     \b
     Example:
