@@ -66,6 +66,19 @@ def test_fingerprint_is_stable_and_content_sensitive(tmp_path):
     assert load_catalogue(write_jsonl(tmp_path / "e.jsonl", edited)).fingerprint != a.fingerprint
 
 
+def test_fingerprint_is_computed_once_per_catalogue(tmp_path, monkeypatch):
+    from trawl.catalogue import Item
+
+    cat = load_catalogue(write_jsonl(tmp_path / "a.jsonl", ITEMS))
+    calls = []
+    real = Item.canonical
+    monkeypatch.setattr(Item, "canonical", lambda it: calls.append(it.id) or real(it))
+    first = cat.fingerprint
+    assert cat.fingerprint == first and len(calls) == len(ITEMS)
+    # a new template makes a new catalogue with the same content: same fingerprint
+    assert cat.with_template("{title}").fingerprint == first
+
+
 def test_template_renders_fields_and_metadata(tmp_path):
     cat = load_catalogue(write_jsonl(tmp_path / "c.jsonl", ITEMS), template="{type}: {title}\n{branch}")
     assert cat.texts() == ["article: Borrowing e-books\nCentral", "form: Request a library card",

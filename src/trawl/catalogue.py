@@ -18,6 +18,7 @@ import sys
 from collections import Counter
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
+from functools import cached_property
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any
@@ -95,12 +96,14 @@ class Catalogue:
     def type_counts(self) -> dict[str, int]:
         return dict(sorted(Counter(it.type for it in self.items).items()))
 
-    @property
+    @cached_property
     def fingerprint(self) -> str:
         """Content hash, independent of file format and line order (items sorted by id).
 
         The template is not part of it: the same content embedded differently is the
-        same catalogue; indexes record their template separately.
+        same catalogue; indexes record their template separately. Computed once per
+        catalogue (items are immutable): on 200k items it takes seconds, and a build or
+        an evaluation asks for it once per system and per staleness check.
         """
         h = hashlib.sha256()
         for it in sorted(self.items, key=lambda i: i.id):
