@@ -98,13 +98,9 @@ class Catalogue:
 
     @cached_property
     def fingerprint(self) -> str:
-        """Content hash, independent of file format and line order (items sorted by id).
-
-        The template is not part of it: the same content embedded differently is the
-        same catalogue; indexes record their template separately. Computed once per
-        catalogue (items are immutable): on 200k items it takes seconds, and a build or
-        an evaluation asks for it once per system and per staleness check.
-        """
+        """Content hash, independent of file format, line order and template (the same
+        content embedded differently is the same catalogue; indexes record their template).
+        Computed once (items are immutable): seconds on 200k items, asked for per system."""
         h = hashlib.sha256()
         for it in sorted(self.items, key=lambda i: i.id):
             h.update(json.dumps(it.canonical(), sort_keys=True, ensure_ascii=False).encode())
