@@ -34,6 +34,7 @@ from pathlib import Path
 import numpy as np
 from scipy.stats import kendalltau, pearsonr
 
+from trawl.agreement import FIRM, kept_shares
 from trawl.catalogue import Catalogue, load_catalogue
 from trawl.distill import distill_static
 from trawl.fusion import reciprocal_rank_fusion
@@ -94,11 +95,9 @@ def human_firmness(per_q: dict[str, np.ndarray], resamples: int = 2000, seed: in
     n = cols.shape[1]
     means = np.stack([cols[:, rng.integers(0, n, n)].mean(axis=1) for _ in range(resamples)])
     taus = np.array([kendalltau(full, m).statistic for m in means])
-    pairs = {}
-    for i, a in enumerate(SYSTEMS):
-        for j in range(i + 1, len(SYSTEMS)):
-            sign = np.sign(full[i] - full[j])
-            pairs[(a, SYSTEMS[j])] = float(np.mean(np.sign(means[:, i] - means[:, j]) == sign))
+    kept = kept_shares(full, means)
+    pairs = {(a, b): float(kept[i, j]) for i, a in enumerate(SYSTEMS)
+             for j, b in enumerate(SYSTEMS) if i < j}
     return float(np.mean(taus >= GOAL_TAU - 1e-9)), float(np.median(taus)), pairs
 
 
@@ -148,7 +147,7 @@ def study(name: str, cat_path: Path, q_path: Path, r_path: Path, args, static_di
               f"bootstrap resamples of its {len(next(iter(human_q.values())))} queries "
               f"(median tau {firm[1]:.2f}); pairs held in under 90%:")
         for (a, b), share in firm[2].items():
-            if share < 0.9:
+            if share < FIRM:
                 print(f"    {a} vs {b}: {share:.0%}")
     if args.samples:
         rng = random.Random(f"samples:{name}")
@@ -160,7 +159,7 @@ def study(name: str, cat_path: Path, q_path: Path, r_path: Path, args, static_di
 
 
 def firm_flips(human: dict[str, float], silver: dict[str, float],
-               held: dict[tuple[str, str], float], firm: float = 0.9) -> int:
+               held: dict[tuple[str, str], float], firm: float = FIRM) -> int:
     """Pairs people's queries hold in at least ``firm`` of resamples that silver swaps:
     the disagreements that are not within the human judgments' own noise."""
     return sum(1 for (a, b), share in held.items() if share >= firm

@@ -197,19 +197,24 @@ def agree(qrels_a: Qrels, qrels_b: Qrels, runs: Sequence[Run], metric: str = "nd
                      else _firm(mean_a, mean_b, boot_a, boot_b))
 
 
+def kept_shares(mean: np.ndarray, boot: np.ndarray) -> np.ndarray:
+    """``[i, j]``: the share of bootstrap replicates (rows of ``boot``, one column per
+    system) that order systems i and j as ``mean`` does; 0 where ``mean`` ties them."""
+    order = np.sign(mean[:, None] - mean[None, :])
+    kept = (np.sign(boot[:, :, None] - boot[:, None, :]) == order).mean(axis=0)
+    return np.where(order != 0, kept, 0.0)
+
+
 def _firm(mean_a: np.ndarray, mean_b: np.ndarray, boot_a: np.ndarray,
           boot_b: np.ndarray) -> FirmPairs:
     """Which pairs each set settles, and how many of them the other swaps."""
     pairs = list(combinations(range(len(mean_a)), 2))
 
     def settled(mean: np.ndarray, boot: np.ndarray, other: np.ndarray) -> tuple[int, int]:
-        n = swapped = 0
-        for i, j in pairs:
-            d = mean[i] - mean[j]
-            if d and np.mean(np.sign(boot[:, i] - boot[:, j]) == np.sign(d)) >= FIRM:
-                n += 1
-                swapped += bool(d * (other[i] - other[j]) < 0)
-        return n, swapped
+        kept = kept_shares(mean, boot)
+        firm = [(i, j) for i, j in pairs if kept[i, j] >= FIRM]
+        return len(firm), sum(int((mean[i] - mean[j]) * (other[i] - other[j]) < 0)
+                              for i, j in firm)
 
     return FirmPairs(FIRM, len(pairs), *settled(mean_a, boot_a, mean_b),
                      *settled(mean_b, boot_b, mean_a))
@@ -219,15 +224,15 @@ def _flips(names: Sequence[str], mean_a: np.ndarray, mean_b: np.ndarray,
            boot_a: np.ndarray | None, boot_b: np.ndarray | None) -> tuple[Flip, ...]:
     """Pairs ordered one way under A and the other under B, widest disagreement first,
     with the share of bootstrap replicates in which each set keeps its order."""
+    kept = (None if boot_a is None or boot_b is None
+            else (kept_shares(mean_a, boot_a), kept_shares(mean_b, boot_b)))
     flips = []
     for i, j in combinations(range(len(names)), 2):
         da, db = mean_a[i] - mean_a[j], mean_b[i] - mean_b[j]
         if da * db < 0:
-            first, second = (i, j) if da > 0 else (j, i)
             sign = 1 if da > 0 else -1
-            held = ((None, None) if boot_a is None or boot_b is None else
-                    (float(np.mean(boot_a[:, first] > boot_a[:, second])),
-                     float(np.mean(boot_b[:, first] < boot_b[:, second]))))
+            held = (None, None) if kept is None else (float(kept[0][i, j]), float(kept[1][i, j]))
+            first, second = (i, j) if da > 0 else (j, i)
             flips.append(Flip(names[first], names[second], float(sign * da), float(sign * db),
                               *held))
     flips.sort(key=lambda f: (-(f.diff_a - f.diff_b), f.first, f.second))
