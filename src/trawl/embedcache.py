@@ -39,10 +39,13 @@ PAGE_SIZE = 16_384  # new files: a quarter of the pages to touch per batch of ra
 WAL_BYTES = 40 << 20  # checkpoint every 40 MB of WAL: index pages changed often are copied once
 
 
+CACHE_ENV = "TRAWL_CACHE_DIR"  # the user's choice of cache folder, honoured everywhere
+
+
 def default_cache_dir() -> Path:
     """``$TRAWL_CACHE_DIR``, else ``$XDG_CACHE_HOME/trawl``, else ``~/.cache/trawl``."""
-    if os.environ.get("TRAWL_CACHE_DIR"):
-        return Path(os.environ["TRAWL_CACHE_DIR"]).expanduser()
+    if os.environ.get(CACHE_ENV):
+        return Path(os.environ[CACHE_ENV]).expanduser()
     base = os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache"
     return Path(base).expanduser() / "trawl"
 

@@ -10,6 +10,7 @@ from pathlib import Path
 
 from ..catalogue import check_catalogue, load_catalogue
 from ..decision import Limits
+from ..embedcache import CACHE_ENV
 from ..errors import TrawlError
 from ..latency import check_threads
 from .evaluation import DEFAULT_RESAMPLES, EvalResult, evaluate
@@ -84,7 +85,7 @@ def demo(out_dir: str | Path = "demo-out", *, encoders: Sequence[str] = DEMO_ENC
             say(f"distil static encoder from the bundled model into {static_dir}")
             distill_static(static_dir, quiet=quiet)
     cache = cache_dir if cache_dir is not None else (
-        os.environ.get("TRAWL_CACHE_DIR") or out / "cache")
+        os.environ.get(CACHE_ENV) or out / "cache")
     silver = synthesise(cat, SynthSettings(sample=sample, seed=seed), cache_dir=cache,
                         quiet=quiet)
     prefix = out / "silver" / "quillfern-silver"
