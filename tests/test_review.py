@@ -1,6 +1,6 @@
-"""Review sheets: export, import, merge rule, reports and bad sheets.
+"""Review sheets: export, import, the merge rule, reviewer agreement and the CLI.
 
-All data is invented (a transit rider app).
+All data is invented (a transit rider app; tests/review_world.py).
 """
 
 from __future__ import annotations
@@ -12,104 +12,20 @@ from collections import Counter
 from pathlib import Path
 
 import pytest
-from hypothesis import given
-from hypothesis import strategies as st
 
-from trawl.catalogue import load_catalogue
 from trawl.destinations import query_types
-from trawl.errors import InputError, UsageError
+from trawl.errors import UsageError
 from trawl.judgments import read_qrels, write_qrels
-from trawl.queries import write_queries
-from trawl.review import (COLUMNS, export_sheet, guard_cell, import_sheets, merge_grades,
-                          unguard_cell)
-from trawl.runs import make_run, write_run
-from trawl.silver import read_styles
+from trawl.review import COLUMNS, export_sheet, import_sheets, merge_grades
 from trawl.stats import cohen_kappa, wilson_interval
 
 from .conftest import invoke
-
-ITEMS = [
-    {"id": "kb-fares", "type": "article", "title": "Fares and zones",
-     "text": "How zone fares work. " * 30, "deeplink": "qf://kb/fares"},
-    {"id": "kb-refund", "type": "article", "title": "Refunds for delayed trips"},
-    {"id": "faq-cap", "type": "faq", "title": "Is there a weekly fare cap?", "text": "Yes."},
-    {"id": "faq-lost", "type": "faq", "title": "Where is lost property kept?"},
-    {"id": "scr-wallet", "type": "screen", "title": "=HYPERLINK(\"http://x\",\"Wallet\")",
-     "text": "Your passes and balance", "deeplink": "qf://wallet"},
-    {"id": "scr-plan", "type": "screen", "title": "Plan a trip"},
-    {"id": "frm-refund", "type": "form", "title": "+Request a refund"},
-    {"id": "-frm-lost", "type": "form", "title": "Report lost property"},
-    {"id": "007", "type": "faq", "title": "Can I bring a bike?"},
-]
+from .review_world import fill_sheet, make_world, sheet_rows
 
 
 @pytest.fixture()
-def world(tmp_path: Path):
-    """Catalogue, queries, silver qrels (+ provenance) and two runs, all tiny."""
-    cat = tmp_path / "cat.jsonl"
-    cat.write_text("".join(json.dumps(it) + "\n" for it in ITEMS), encoding="utf-8")
-    queries = {"s1": "how much is a zone 2 fare", "s2": "refund late bus",
-               "s3": "weekly cap", "s4": "lost my bag call 020 7946 0958",
-               "s5": "@wallet balance", "s6": "bike on train"}
-    write_queries(tmp_path / "silver.queries.tsv", queries)
-    qrels = {"s1": {"kb-fares": 2, "faq-cap": 1}, "s2": {"frm-refund": 2, "kb-refund": 1},
-             "s3": {"faq-cap": 2}, "s4": {"-frm-lost": 2, "faq-lost": 1, "scr-plan": 0},
-             "s5": {"scr-wallet": 2}, "s6": {"007": 2}}
-    write_qrels(tmp_path / "silver.qrels", qrels)
-    styles = {"s1": "question", "s2": "keyword", "s3": "keyword", "s4": "typo",
-              "s5": "keyword", "s6": "question"}
-    (tmp_path / "silver.jsonl").write_text(
-        "".join(json.dumps({"qid": q, "style": s, "source": "x"}) + "\n"
-                for q, s in styles.items()), encoding="utf-8")
-    ids = [it["id"] for it in ITEMS]
-    run_a = make_run("alpha", {q: [(i, float(-k)) for k, i in enumerate(ids)] for q in queries})
-    run_b = make_run("beta", {q: [(i, float(k)) for k, i in enumerate(ids)] for q in queries})
-    write_run(tmp_path / "alpha.run", run_a)
-    write_run(tmp_path / "beta.run", run_b)
-    return {"dir": tmp_path, "cat": cat, "catalogue": load_catalogue(cat), "queries": queries,
-            "qrels": qrels, "styles": styles, "runs": [run_a, run_b]}
-
-
-def _rows(path: Path) -> list[dict[str, str]]:
-    """Data rows of a sheet as dicts (notes skipped), cells as written."""
-    records = list(csv.reader(io.StringIO(path.read_bytes().decode("utf-8-sig"), newline="")))
-    records = [r for r in records if r and not r[0].startswith("#")]
-    return [dict(zip(records[0], r)) for r in records[1:]]
-
-
-def _fill(path: Path, verdicts: dict[tuple[str, str], str], out: Path | None = None) -> Path:
-    """Set the verdict of some rows, keeping everything else byte for byte."""
-    records = list(csv.reader(io.StringIO(path.read_bytes().decode("utf-8-sig"), newline="")))
-    header_at = next(i for i, r in enumerate(records) if r and r[0] == "qid")
-    col = {h: i for i, h in enumerate(records[header_at])}
-    for r in records[header_at + 1:]:
-        key = (unguard_cell(r[col["qid"]]), unguard_cell(r[col["item_id"]]))
-        if key in verdicts:
-            r[col["verdict"]] = verdicts[key]
-    buf = io.StringIO()
-    csv.writer(buf, lineterminator="\r\n").writerows(records)
-    out = out or path
-    out.write_bytes(buf.getvalue().encode("utf-8-sig"))
-    return out
-
-
-# --- formula guard --------------------------------------------------------------------------
-
-@pytest.mark.parametrize("text, guarded", [
-    ("=1+1", "'=1+1"), ("+44", "'+44"), ("-x", "'-x"), ("@SUM(A1)", "'@SUM(A1)"),
-    ("\tx", "'\tx"), ("\rx", "'\rx"), ("'=x", "''=x"), ("'x", "'x"), ("a=b", "a=b"), ("", ""),
-])
-def test_guard_follows_the_leading_character_rule(text, guarded):
-    # OWASP CSV injection guidance: cells starting with = + - @ tab or CR get a ' prefix.
-    assert guard_cell(text) == guarded
-    assert unguard_cell(guarded) == text
-
-
-@given(st.text())
-def test_guard_round_trips_and_never_leaves_a_formula_start(text):
-    g = guard_cell(text)
-    assert unguard_cell(g) == text
-    assert not g.startswith(("=", "+", "-", "@", "\t", "\r"))
+def world(tmp_path: Path) -> dict:
+    return make_world(tmp_path)
 
 
 # --- export ---------------------------------------------------------------------------------
@@ -125,7 +41,7 @@ def test_export_writes_bom_crlf_notes_header_and_guarded_cells(world):
     assert "# grade scale: 0-2\r\n" in text
     assert "qid,query,style,item_id,type,title,snippet,link,reason,silver_grade,verdict,note\r\n" \
         in text
-    rows = _rows(out)
+    rows = sheet_rows(out)
     assert len(rows) == 10 and summary.sheets[0].silver_rows == 10
     by_item = {r["item_id"]: r for r in rows}
     assert by_item["scr-wallet"]["title"] == "'=HYPERLINK(\"http://x\",\"Wallet\")"
@@ -145,10 +61,10 @@ def test_export_writes_bom_crlf_notes_header_and_guarded_cells(world):
 def test_query_text_is_scrubbed_by_default_and_counted(world):
     out = world["dir"] / "sheet.csv"
     summary = export_sheet(world["qrels"], world["queries"], world["catalogue"], out)
-    assert {r["query"] for r in _rows(out) if r["qid"] == "s4"} == {"lost my bag call [phone]"}
+    assert {r["query"] for r in sheet_rows(out) if r["qid"] == "s4"} == {"lost my bag call [phone]"}
     assert summary.scrubbed == {"email": 0, "phone": 1, "postcode": 0, "number": 0}
     export_sheet(world["qrels"], world["queries"], world["catalogue"], out, scrub_queries=False)
-    assert {r["query"] for r in _rows(out) if r["qid"] == "s4"} == {
+    assert {r["query"] for r in sheet_rows(out) if r["qid"] == "s4"} == {
         "lost my bag call 020 7946 0958"}
 
 
@@ -156,7 +72,7 @@ def test_pooled_rows_are_unjudged_top_results_without_run_names(world):
     out = world["dir"] / "sheet.csv"
     summary = export_sheet(world["qrels"], world["queries"], world["catalogue"], out,
                            runs=world["runs"], pairs="pooled", depth=2)
-    rows = _rows(out)
+    rows = sheet_rows(out)
     assert all(r["reason"] == "pooled" and r["silver_grade"] == "" for r in rows)
     # alpha ranks the catalogue in file order, beta in reverse; top 2 of each, minus judged,
     # ordered by best rank then id.
@@ -172,7 +88,7 @@ def test_both_is_the_default_with_runs(world):
     out = world["dir"] / "sheet.csv"
     summary = export_sheet(world["qrels"], world["queries"], world["catalogue"], out,
                            runs=world["runs"], depth=1)
-    reasons = Counter(r["reason"] for r in _rows(out))
+    reasons = Counter(r["reason"] for r in sheet_rows(out))
     assert reasons == {"silver": 10, "pooled": summary.sheets[0].pooled_rows}
     assert summary.sheets[0].pooled_rows > 0
 
@@ -214,8 +130,8 @@ def test_two_reviewers_share_an_overlap_and_split_the_rest(world):
                            reviewers=2, overlap=0.5, seed=3)
     one, two = (world["dir"] / "pair-1.csv"), (world["dir"] / "pair-2.csv")
     assert [s.path for s in summary.sheets] == [str(one), str(two)]
-    q1 = {r["qid"] for r in _rows(one)}
-    q2 = {r["qid"] for r in _rows(two)}
+    q1 = {r["qid"] for r in sheet_rows(one)}
+    q2 = {r["qid"] for r in sheet_rows(two)}
     assert len(q1 & q2) == summary.overlap_queries == 3
     assert q1 | q2 == set(world["qrels"])
     assert (len(q1), len(q2)) == (5, 4)  # the 3 other queries dealt in turn: 2 and 1
@@ -258,7 +174,7 @@ def test_round_trip_of_an_unchanged_sheet_reproduces_the_qrels_exactly(world):
     assert (world["dir"] / "back.qrels").read_bytes() == \
         (world["dir"] / "silver.qrels").read_bytes()
     rep = result.report
-    assert (rep.reviewed, rep.pairs) == (0, len(_rows(out)))
+    assert (rep.reviewed, rep.pairs) == (0, len(sheet_rows(out)))
     assert rep.silver_precision.n == 0
 
 
@@ -266,7 +182,7 @@ def test_verdicts_merge_and_silver_precision_is_reported(world):
     out = world["dir"] / "sheet.csv"
     export_sheet(world["qrels"], world["queries"], world["catalogue"], out,
                  runs=world["runs"], depth=1, styles=world["styles"])
-    _fill(out, {("s1", "kb-fares"): "ok", ("s1", "faq-cap"): "no", ("s2", "frm-refund"): "1",
+    fill_sheet(out, {("s1", "kb-fares"): "ok", ("s1", "faq-cap"): "no", ("s2", "frm-refund"): "1",
                 ("s2", "kb-refund"): " OK ", ("s3", "faq-cap"): "0",
                 ("s4", "scr-plan"): "2",  # a silver 0 turned relevant
                 ("s6", "kb-fares"): "2",  # a pooled row found relevant
@@ -301,8 +217,8 @@ def test_two_reviewers_kappa_disagreements_and_median_merge(world):
          ("s2", "kb-refund"): "0", ("s3", "faq-cap"): "2", ("s5", "scr-wallet"): "2"}
     b = {("s1", "kb-fares"): "2", ("s1", "faq-cap"): "0", ("s2", "frm-refund"): "1",
          ("s2", "kb-refund"): "0", ("s3", "faq-cap"): "ok", ("s6", "007"): "no"}
-    _fill(one, a)
-    _fill(two, b)
+    fill_sheet(one, a)
+    fill_sheet(two, b)
     result = import_sheets([one, two], world["catalogue"])
     q = result.qrels
     assert q["s1"] == {"kb-fares": 2, "faq-cap": 0}  # median of 1 and 0 rounds down
@@ -330,7 +246,7 @@ def test_base_qrels_keep_pairs_no_sheet_holds(world):
     out = world["dir"] / "sheet.csv"
     few = {q: world["qrels"][q] for q in ("s1", "s2")}
     export_sheet(few, world["queries"], world["catalogue"], out)
-    _fill(out, {("s1", "faq-cap"): "no"})
+    fill_sheet(out, {("s1", "faq-cap"): "no"})
     q = import_sheets([out], world["catalogue"], base=world["qrels"]).qrels
     expected = {k: dict(v) for k, v in world["qrels"].items()}
     expected["s1"]["faq-cap"] = 0
@@ -368,7 +284,7 @@ def test_importing_an_unfilled_sheet_warns_that_the_output_is_still_silver(world
     assert res.stderr.strip() == (
         f"warning: no sheet has a verdict yet, so {world['dir'] / 'r.qrels'} holds the "
         "silver grades unchanged: machine-made estimates, not reviewed judgments")
-    _fill(out, {("s1", "kb-fares"): "ok"})
+    fill_sheet(out, {("s1", "kb-fares"): "ok"})
     res = invoke(["review", "import", out, "-c", world["cat"], "-o", world["dir"] / "r.qrels"])
     assert res.exit_code == 0 and "warning" not in res.stderr
 
@@ -376,7 +292,7 @@ def test_importing_an_unfilled_sheet_warns_that_the_output_is_still_silver(world
 def test_half_filled_sheet_imports_what_is_filled_and_says_what_is_left(world):
     out = world["dir"] / "sheet.csv"
     export_sheet(world["qrels"], world["queries"], world["catalogue"], out)
-    _fill(out, {("s1", "kb-fares"): "no", ("s3", "faq-cap"): "ok"})
+    fill_sheet(out, {("s1", "kb-fares"): "no", ("s3", "faq-cap"): "ok"})
     res = invoke(["review", "import", out, "-c", world["cat"], "-o", world["dir"] / "r.qrels"])
     assert res.exit_code == 0, res.output
     lines = res.stdout.splitlines()
@@ -388,83 +304,6 @@ def test_half_filled_sheet_imports_what_is_filled_and_says_what_is_left(world):
     assert ["all", "1", "2", "0.500", "[0.095,", "0.905]"] in table
     assert ["type", "article", "0", "1", "0.000", "[0.000,", "0.793]"] in table
     assert read_qrels(world["dir"] / "r.qrels")["s1"] == {"kb-fares": 0, "faq-cap": 1}
-
-
-# --- bad sheets -----------------------------------------------------------------------------
-
-def _sheet(world, body: str, name: str = "bad.csv") -> Path:
-    path = world["dir"] / name
-    path.write_text(body, encoding="utf-8")
-    return path
-
-
-HEAD = "# grade scale: 0-2\nqid,item_id,reason,silver_grade,verdict\n"
-
-
-@pytest.mark.parametrize("body, message", [
-    ("qid,item,reason,silver_grade,verdict\ns1,kb-fares,silver,2,ok\n",
-     "bad.csv:1: header: missing column 'item_id'; a review sheet needs columns qid, item_id, "
-     "reason, silver_grade, verdict"),
-    ("qid,item_id,reason,silver_grade,verdict,verdict\n",
-     "bad.csv:1: header: column 'verdict' appears twice"),
-    (HEAD + "s1,kb-fares,silver,2,maybe\n",
-     "bad.csv:3: verdict: 'maybe' is not allowed; use ok, no, 0, 1, 2 or leave it blank"),
-    (HEAD + "s1,kb-fares,silver,2,3\n", "bad.csv:3: verdict: '3' is not allowed"),
-    (HEAD + "s1,kb-gone,silver,2,ok\n",
-     "bad.csv:3: item_id: item 'kb-gone' is not in the catalogue"),
-    (HEAD + "s1,7,silver,2,ok\n", "may have turned an id like '007' into a number"),
-    (HEAD + "s1,kb-fares,silver,2,ok\ns1,faq-cap,silver,1,\ns1,kb-fares,silver,2,no\n",
-     "bad.csv:5: duplicate row for query 's1', item 'kb-fares' (first on line 3)"),
-    (HEAD + "s1,kb-fares,pooled,,ok\n", "bad.csv:3: verdict: 'ok' confirms a silver grade"),
-    (HEAD + "s1,kb-fares,silver,high,ok\n", "bad.csv:3: silver_grade: 'high' is not a grade"),
-    (HEAD + "s1,kb-fares,pooled,1,\n", "bad.csv:3: silver_grade: pooled rows have no"),
-    (HEAD + "s1,kb-fares,guess,1,\n", "bad.csv:3: reason: 'guess' is not one of"),
-    (HEAD + "s1,kb-fares,silver,1,,surprise\n", "bad.csv:3: 6 cells but the header names 5"),
-    (HEAD + "s 1,kb-fares,silver,1,\n", "bad.csv:3: qid: query id 's 1'"),
-    ("# notes only\n", "no header row"),
-    (HEAD, "bad.csv: the sheet has a header but no rows"),
-    (HEAD + 's1,"kb-fares\n', "malformed CSV"),
-    (HEAD + "s1,kb-fares,silver,2,\x00\n", "NUL byte"),
-])
-def test_bad_sheets_give_one_located_error(world, body, message):
-    path = _sheet(world, body)
-    with pytest.raises(InputError) as exc:
-        import_sheets([path], world["catalogue"])
-    assert message in str(exc.value)
-    assert "\n" not in str(exc.value)
-    res = invoke(["review", "import", path, "-c", world["cat"], "-o", world["dir"] / "o.qrels"])
-    assert res.exit_code == 2
-    assert res.stderr.startswith("error: ") and message in res.stderr
-    assert not (world["dir"] / "o.qrels").exists()
-
-
-def test_sheets_that_contradict_each_other_are_rejected(world):
-    a = _sheet(world, HEAD + "s1,kb-fares,silver,2,\n", "a.csv")
-    b = _sheet(world, HEAD + "s1,kb-fares,silver,1,\n", "b.csv")
-    with pytest.raises(InputError, match=r"b.csv:3: .*differs from .*a.csv:3"):
-        import_sheets([a, b], world["catalogue"])
-    with pytest.raises(UsageError, match="given twice"):
-        import_sheets([a, a], world["catalogue"])
-
-
-def test_without_notes_the_scale_is_the_largest_silver_grade(world):
-    path = _sheet(world, "qid,item_id,reason,silver_grade,verdict\ns1,kb-fares,silver,2,2\n")
-    assert import_sheets([path], world["catalogue"]).qrels == {"s1": {"kb-fares": 2}}
-    path = _sheet(world, "qid,item_id,reason,silver_grade,verdict\ns1,kb-fares,silver,1,2\n")
-    with pytest.raises(InputError, match="'2' is not allowed; use ok, no, 0, 1"):
-        import_sheets([path], world["catalogue"])
-
-
-def test_provenance_reader_is_defensive_but_locates_broken_lines(world, tmp_path):
-    p = tmp_path / "p.jsonl"
-    p.write_text('{"qid": "a", "style": "typo"}\n\n{"qid": 7}\n{"qid": "b", "style": 3}\n')
-    assert read_styles(p) == {"a": "typo", "7": "", "b": ""}
-    p.write_text('{"qid": "a"}\n{"qid": \n')
-    with pytest.raises(InputError, match=r"p.jsonl:2: malformed JSON"):
-        read_styles(p)
-    p.write_text('{"style": "typo"}\n')
-    with pytest.raises(InputError, match=r"p.jsonl:1: qid: missing"):
-        read_styles(p)
 
 
 # --- CLI ------------------------------------------------------------------------------------
@@ -480,7 +319,7 @@ def test_cli_export_and_import_round_trip_with_provenance_found_beside_qrels(wor
         f"query styles from {d / 'silver.jsonl'}",
         "scrubbed from query text: 1 phone",
     ]
-    assert {r["style"] for r in _rows(d / "r.csv")} == {"question", "keyword", "typo"}
+    assert {r["style"] for r in sheet_rows(d / "r.csv")} == {"question", "keyword", "typo"}
     res = invoke(["review", "import", d / "r.csv", "-c", world["cat"], "-o", d / "back.qrels",
                   "--json"])
     assert res.exit_code == 0, res.output
@@ -507,9 +346,9 @@ def test_cli_import_lists_reviewer_agreement(world):
     d = world["dir"]
     export_sheet(world["qrels"], world["queries"], world["catalogue"], d / "p.csv",
                  reviewers=2, overlap=1.0)
-    _fill(d / "p-1.csv", {("s1", "kb-fares"): "2", ("s2", "frm-refund"): "2",
+    fill_sheet(d / "p-1.csv", {("s1", "kb-fares"): "2", ("s2", "frm-refund"): "2",
                           ("s3", "faq-cap"): "0"})
-    _fill(d / "p-2.csv", {("s1", "kb-fares"): "2", ("s2", "frm-refund"): "no",
+    fill_sheet(d / "p-2.csv", {("s1", "kb-fares"): "2", ("s2", "frm-refund"): "no",
                           ("s3", "faq-cap"): "0"})
     res = invoke(["review", "import", d / "p-1.csv", d / "p-2.csv", "-c", world["cat"],
                   "-o", d / "m.qrels"])
@@ -522,76 +361,3 @@ def test_cli_import_lists_reviewer_agreement(world):
     assert (f"  s2 frm-refund: 'refund late bus' / '+Request a refund': {d / 'p-1.csv'} 2, "
             f"{d / 'p-2.csv'} 0 -> 1") in res.stdout
 
-
-# --- .xlsx ----------------------------------------------------------------------------------
-
-def test_xlsx_sheet_has_a_verdict_drop_down_text_ids_and_stable_bytes(world):
-    from openpyxl import load_workbook
-
-    out = world["dir"] / "sheet.xlsx"
-    export_sheet(world["qrels"], world["queries"], world["catalogue"], out)
-    first = out.read_bytes()
-    export_sheet(world["qrels"], world["queries"], world["catalogue"], out)
-    assert out.read_bytes() == first
-    ws = load_workbook(out).active
-    (dv,) = ws.data_validations.dataValidation
-    assert dv.type == "list" and dv.formula1 == '"ok,no,0,1,2"'
-    assert str(dv.sqref) == "K5:K14"  # the verdict column of the 10 data rows
-    assert [c.value for c in ws[4]] == list(COLUMNS)
-    ids = [ws.cell(r, 4).value for r in range(5, 15)]
-    assert "007" in ids and "'-frm-lost" in ids  # text, not a number; guarded like CSV
-    assert all(ws.cell(r, c).data_type == "s" for r in range(5, 15) for c in (1, 4, 6))
-
-
-def test_xlsx_filled_by_a_person_imports(world):
-    from openpyxl import load_workbook
-
-    out = world["dir"] / "sheet.xlsx"
-    export_sheet(world["qrels"], world["queries"], world["catalogue"], out)
-    assert import_sheets([out], world["catalogue"]).qrels == world["qrels"]
-    wb = load_workbook(out)
-    ws = wb.active
-    for r in range(5, ws.max_row + 1):
-        key = (ws.cell(r, 1).value, ws.cell(r, 4).value)
-        if key == ("s1", "kb-fares"):
-            ws.cell(r, 11).value = 1  # typed as a number, as people do
-        if key == ("s2", "frm-refund"):
-            ws.cell(r, 11).value = "no"
-    wb.save(out)
-    result = import_sheets([out], world["catalogue"])
-    assert result.qrels["s1"]["kb-fares"] == 1 and result.qrels["s2"]["frm-refund"] == 0
-    assert result.report.sheets[0].filled == 2
-
-
-def test_broken_xlsx_gives_one_located_error(world):
-    bad = world["dir"] / "bad.xlsx"
-    bad.write_bytes(b"PK\x03\x04 not really a workbook")
-    with pytest.raises(InputError, match=r"bad.xlsx: cannot read the .xlsx sheet"):
-        import_sheets([bad], world["catalogue"])
-
-
-# --- the parser never crashes -----------------------------------------------------------------
-
-_PIECES = st.sampled_from(["qid", "item_id", "reason", "silver_grade", "verdict", "s1", "kb-fares",
-                           "007", "silver", "pooled", "ok", "no", "2", "2.0", "-1", "'=x", '"',
-                           ",", "\r\n", "\n", "\r", "\t", "#", "# grade scale: 0-2", "\x00",
-                           "\ufeff", "é", "שלום", "🚌", " ", ""])
-
-
-@pytest.fixture(scope="module")
-def fuzz_catalogue(tmp_path_factory):
-    path = tmp_path_factory.mktemp("cat") / "cat.jsonl"
-    path.write_text("".join(json.dumps(it) + "\n" for it in ITEMS), encoding="utf-8")
-    return load_catalogue(path)
-
-
-@given(st.lists(_PIECES, max_size=60), st.booleans())
-def test_any_sheet_text_loads_or_gives_an_input_error(tmp_path_factory, fuzz_catalogue,
-                                                      pieces, header):
-    path = tmp_path_factory.mktemp("fuzz") / "s.csv"
-    head = "qid,item_id,reason,silver_grade,verdict\r\n" if header else ""
-    path.write_bytes((head + "".join(pieces)).encode("utf-8"))
-    try:
-        import_sheets([path], fuzz_catalogue)
-    except (InputError, UsageError) as exc:
-        assert "\n" not in str(exc)
