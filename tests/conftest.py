@@ -36,16 +36,19 @@ def cranfield() -> Path:
 
 
 @pytest.fixture(scope="session")
-def cranfield_reference_vectors(cranfield):
-    """sentence-transformers' own encode of the bundled model (normalised) over every
-    Cranfield item: the outside reference for our torch and ONNX encoders, paid once."""
-    from trawl import bundled
-    from trawl.catalogue import load_catalogue
-    from trawl.retrievers.dense import load_sentence_transformer
+def cranfield_minilm_vectors(cranfield, tmp_path_factory):
+    """trawl's torch fp32 minilm vectors of every Cranfield item, from an index built once
+    per session through the session's embedding cache (the Cranfield silver check and the
+    retrieval checks reuse the same embeddings): the reference of the ONNX check, and
+    itself checked against sentence-transformers' encode."""
+    import numpy as np
 
-    texts = load_catalogue(cranfield / "catalogue.jsonl").texts()
-    return load_sentence_transformer(str(bundled.model_path())).encode(
-        texts, batch_size=32, normalize_embeddings=True, convert_to_numpy=True)
+    from trawl.catalogue import load_catalogue
+    from trawl.index import build_index
+
+    folder = tmp_path_factory.mktemp("cranfield-minilm") / "index"
+    build_index(load_catalogue(cranfield / "catalogue.jsonl"), "minilm", folder, quiet=True)
+    return np.load(folder / "vectors.npy")
 
 
 @pytest.fixture(scope="session")
