@@ -60,6 +60,25 @@ def test_the_summary_starts_with_the_decision_in_at_most_six_lines():
                          f"review.csv --sample {b['decision']['review_sample']}")
 
 
+def test_the_summary_says_which_settled_pairs_the_other_set_swaps():
+    """With nine systems, six of them near copies of one model, the demo's tau was 0.12
+    over 15 flipped pairs: near ties. The line under it names what to read instead."""
+    b = bundle_with_decision()
+    for ev in b["evaluations"]:
+        ev["judged_by"] = "silver judgments" if ev["silver"] else "human judgments"
+    b["agreement"]["firm_pairs"] = {"threshold": 0.9, "pairs": 36, "settled_a": 21,
+                                    "swapped_by_b": 2, "settled_b": 19, "swapped_by_a": 0}
+    lines = text.summary(b).splitlines()
+    at = next(k for k, line in enumerate(lines) if line.startswith("agreement, silver set"))
+    assert lines[at + 1] == (
+        "  Of the 36 pairs of systems, silver set settles 21 (keeps their order in at least "
+        "90% of resamples) and gold set swaps 2 of them; gold set settles 19 and silver set "
+        "swaps 0 of them. A swap of a settled pair is a disagreement that set's own noise "
+        "does not explain.")
+    b["agreement"]["firm_pairs"] = None  # no bootstrap: no line
+    assert not any(line.startswith("  Of the") for line in text.summary(b).splitlines())
+
+
 def test_per_type_counts_add_up_by_a_stated_tally():
     from trawl.destinations import type_tally
 

@@ -489,6 +489,9 @@ def summary(bundle: Mapping[str, Any]) -> str:
                      f"({fmt.interval(ag['tau']['low'], ag['tau']['high'], 2)}), "
                      f"Spearman's rho {fmt.num(ag['rho']['value'], 2)}; "
                      f"{len(ag['flips'])} pair(s) of systems change order")
+        firm = fmt.settled(ag.get("firm_pairs"), ag["a_label"], ag["b_label"])
+        if firm:  # tau counts near ties as flips; the settled pairs are the ones to read
+            lines.append(f"  {firm}")
     lines.append(f"{fmt.MARK_LEGEND}; alpha {bundle['setup']['alpha']:g}, Holm-corrected over "
                  f"the systems compared with the baseline on {bundle['setup']['primary']}")
     return "\n".join(lines)
