@@ -288,6 +288,10 @@ def test_agreement_says_how_firmly_each_set_holds_the_pairs_that_swap():
             "90% of resamples) and gold set swaps 0 of them; gold set settles 1 and silver set "
             "swaps 0 of them.") in text
     assert "noise does not explain" not in text
+    assert ("Silver set swaps 0 of the 1 pairs of systems that gold set settles (keeps in "
+            "order in at least 90% of bootstrap resamples); a pair you decide on is settled "
+            "only by judging real queries (trawl review).") in text
+    assert text.index("Silver set swaps 0") < text.index("Agreement: silver set")  # top notice
 
 
 def test_column_headers_wrap_between_name_parts_not_inside_words():

@@ -87,12 +87,18 @@ def _silver_trust(bundle: Mapping[str, Any]) -> Markup | str:
     if not ag:
         return ("How well they rank systems the way people would is not measured here; "
                 "review a sample (trawl review) or add human judgments to find out.")
-    tau = ag["tau"]
+    tau, firm = ag["tau"], ag.get("firm_pairs")
+    # tau counts near ties as disagreements; the pairs people settle are the ones to trust
+    a = ag["a_label"][:1].upper() + ag["a_label"][1:]
+    settled = (f" {a} swaps {firm['swapped_by_a']} of the {firm['settled_b']} pairs of "
+               f"systems that {ag['b_label']} settles (keeps in order in at least "
+               f"{100 * firm['threshold']:.0f}% of bootstrap resamples); a pair you decide "
+               "on is settled only by judging real queries (trawl review).") if firm else ""
     return join(f"Measured against {ag['b_label']}: Kendall's tau between the two sets' "
                 f"system rankings is {fmt.num(tau['value'], 2)} (interval "
                 f"{fmt.interval(tau['low'], tau['high'], 2)}) over {len(ag['systems'])} systems "
-                "(1: same order, -1: reversed); see ", el("a", {"href": "#agreement"}, "Agreement"),
-                ".")
+                "(1: same order, -1: reversed).", settled, " See ",
+                el("a", {"href": "#agreement"}, "Agreement"), ".")
 
 
 def _contents(bundle: Mapping[str, Any]) -> Markup:
