@@ -92,5 +92,10 @@ def test_the_silver_note_says_estimates_and_points_to_the_quality_page():
     assert silver_note(measured=measured) == (
         "silver judgments: figures are estimates; system rankings against gold set: "
         f"Kendall's tau 0.87 (0.60 to 1.00); see {QUALITY_DOC}")
+    firm = MeasuredAgreement("gold set", 0.12, 0.06, 0.94, settled=19, swapped=0)
+    assert silver_note(measured=firm) == (
+        "silver judgments: figures are estimates; system rankings against gold set: "
+        "Kendall's tau 0.12 (0.06 to 0.94), swapping 0 of the 19 pairs of systems gold set "
+        f"settles; see {QUALITY_DOC}")
     unknown = MeasuredAgreement("gold set", float("nan"))
     assert "Kendall's tau not computable; see" in silver_note(measured=unknown)

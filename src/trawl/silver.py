@@ -166,6 +166,8 @@ class MeasuredAgreement:
     tau: float | None
     low: float | None = None
     high: float | None = None
+    settled: int | None = None  # pairs of systems ``other`` settles (agreement.FirmPairs)
+    swapped: int | None = None  # ... of which the silver set swaps this many
 
     @classmethod
     def from_dict(cls, other: str, tau: Mapping[str, Any]) -> MeasuredAgreement:
@@ -183,6 +185,9 @@ def silver_note(qrels_path: str | Path | None = None,
         trust = (f"system rankings against {measured.other}: Kendall's tau "
                  f"{_two(measured.tau)}" + (f" ({_two(measured.low)} to {_two(measured.high)})"
                                             if _known(measured.low, measured.high) else ""))
+        if measured.settled is not None and measured.swapped is not None:
+            trust += (f", swapping {measured.swapped} of the {measured.settled} pairs of "
+                      f"systems {measured.other} settles")
     elif qrels_path is not None:
         trust = "`trawl review` and `trawl agree` measure how far to trust them"
     else:

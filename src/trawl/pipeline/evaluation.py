@@ -291,7 +291,12 @@ def _judged_by(ev: Evaluation, agreed: AgreementInfo | None) -> Evaluation:
         return replace(ev, judged_by="human judgments")
     if agreed is None or ev.name not in (agreed.a, agreed.b):
         return replace(ev, judged_by=silver_note())
-    other = agreed.b_label if ev.name == agreed.a else agreed.a_label
-    tau = agreed.tau
+    mine = ev.name == agreed.a
+    other = agreed.b_label if mine else agreed.a_label
+    tau, firm = agreed.tau, agreed.firm_pairs
+    settled = swapped = None
+    if firm is not None:
+        settled, swapped = ((firm.settled_b, firm.swapped_by_a) if mine
+                            else (firm.settled_a, firm.swapped_by_b))
     return replace(ev, judged_by=silver_note(
-        measured=MeasuredAgreement(other, tau.value, tau.low, tau.high)))
+        measured=MeasuredAgreement(other, tau.value, tau.low, tau.high, settled, swapped)))
