@@ -333,7 +333,8 @@ def synth(d: Mapping[str, Any], related_grade: int) -> tuple[str, list[str]]:
     out.append("")
     out.append(f"overlap = share of query words found in the source item (mean "
                f"{d['mean_overlap']}); profile: {d['profile']['source']}, ceiling "
-               f"{d['profile']['ceiling']}")
+               f"{d['profile']['ceiling']} on queries of more than "
+               f"{d['ceiling_above_words']} content words")
     nb = d["neighbours"]
     if nb["encoders"]:
         out.append(f"{nb['judgments_added']} neighbour judgments at grade {related_grade} "

@@ -283,4 +283,4 @@ def _summary(final: Mapping[str, Merged], catalogue: Catalogue,
             "queries": len(final), "merged_drafts": sum(len(m.drafts) - 1 for m in final.values()),
             "dropped": sum(dropped.values()),
             "mean_overlap": round(sum(ovs) / len(ovs), 3) if ovs else None,
-            "profile": profile.as_dict(), "rows": rows}
+            "profile": profile.as_dict(), "ceiling_above_words": FREE_WORDS, "rows": rows}
