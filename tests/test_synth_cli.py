@@ -41,7 +41,7 @@ def test_writes_three_files_and_prints_table(catalogue, tmp_path):
     assert lines[2].split() == ["style", "type", "queries", "words", "overlap", "dropped"]
     assert "Silver judgments are estimates" in res.stdout
     # the mean overlap may exceed the ceiling: say which queries it binds
-    assert "ceiling 0.75 on queries of more than 3 content words" in res.stdout
+    assert "ceiling 1.0 on queries of more than 3 content words" in res.stdout
     queries = (tmp_path / "s.queries.tsv").read_text().splitlines()
     qrels = (tmp_path / "s.qrels").read_text().splitlines()
     prov = [json.loads(x) for x in (tmp_path / "s.jsonl").read_text().splitlines()]
