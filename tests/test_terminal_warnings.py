@@ -45,3 +45,18 @@ def test_score_shows_too_few_queries_instead_of_a_zero_width_interval(files):
     assert res.exit_code == 0, res.output
     assert res.stdout.splitlines()[3].split() == ["r", "1.000", "(too", "few", "queries)"]
     assert "(1.000 to 1.000)" not in res.stdout
+
+
+def test_eval_refuses_more_results_than_the_catalogue_holds_as_search_does(files):
+    """eval capped --results 3 at this 2-item catalogue without a word, where `trawl
+    search` refuses it; both now refuse, naming the size, before any work."""
+    res = invoke(["eval", files / "cat.jsonl", files / "q.tsv", files / "q.qrels",
+                  "-e", "bm25", "-o", files / "out", "--results", "3", "-q"])
+    assert res.exit_code == 2
+    assert res.stderr == (f"error: 3 results per query asked for, but catalogue "
+                          f"{files / 'cat.jsonl'} holds 2 items; ask for at most 2\n")
+    assert not (files / "out").exists()
+    res = invoke(["eval", files / "cat.jsonl", files / "q.tsv", files / "q.qrels",
+                  "-e", "bm25", "-o", files / "out", "-q"])  # the default: every item
+    assert res.exit_code == 0, res.output
+    assert json.loads((files / "out" / "results.json").read_text())["setup"]["depth"] == 2

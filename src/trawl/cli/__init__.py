@@ -89,8 +89,9 @@ cache_dir_option = click.option(
     "--cache-dir", type=click.Path(file_okay=False), default=None, metavar="DIR",
     help="Embedding cache folder (default: $TRAWL_CACHE_DIR, else ~/.cache/trawl).")
 results_option = click.option(
-    "--results", type=click.IntRange(min=1), default=100, show_default=True, metavar="N",
-    help="Results kept per query (capped at the catalogue size).")
+    "--results", type=click.IntRange(min=1), default=None, metavar="N",
+    help="Results kept per query (default: 100, or every item when the catalogue holds "
+         "fewer); more than the catalogue holds is an error naming its size.")
 partial_option = flag(
     "--partial-overlap", help="Accept runs that answer under half of the judged queries, or "
                               "whose items are mostly not in the catalogue (a deliberate "

@@ -121,13 +121,14 @@ def scrub_note(counts: Mapping[str, int]) -> str:
     return f"scrubbed from query text in the report: {describe_counts(counts)}"
 
 
-def setup_notes(systems: Sequence[System], k: int, depth: int, ann: str, cat: Catalogue,
-                searched: Sequence[Searched]) -> dict[str, str]:
-    """One sentence per aspect of how the evaluation was run, for the report."""
+def setup_notes(systems: Sequence[System], k: int | None, depth: int, ann: str,
+                cat: Catalogue, searched: Sequence[Searched]) -> dict[str, str]:
+    """One sentence per aspect of how the evaluation was run, for the report (``k``: the
+    results asked for, None for the default)."""
     notes = {"search": f"{'exact inner product' if ann == 'exact' else ann.upper()} "
                        f"(dense), top {depth} per query"}
-    if depth < k:
-        notes["search"] += f" (asked for {k}; the catalogue has {len(cat)} items)"
+    if k is None and depth == len(cat):
+        notes["search"] += f" (every item: the catalogue has {len(cat)})"
     if any(s.spec is None for s in systems):
         notes["fusion"] = f"Reciprocal Rank Fusion, k={RRF_K}, of each part's top {depth}"
     cpu = next((f"{lat['cpu']}, {lat['threads']} thread(s)" for found in searched

@@ -78,7 +78,7 @@ class _Plan:
 
 def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
              encoders: Sequence[str], out_dir: str | Path, *, fuse: Sequence[str] = (),
-             baseline: str | None = None, k: int = DEFAULT_DEPTH,
+             baseline: str | None = None, k: int | None = None,
              metrics: Sequence[str] = DEFAULT_METRICS, resamples: int = DEFAULT_RESAMPLES,
              seed: int = 0, alpha: float = 0.05, ann: str = "exact",
              cache_dir: str | Path | None = None, template: str | None = None,
@@ -89,7 +89,9 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
     """Index, search (timed), fuse, score, compare, tabulate misses and write the report.
 
     ``encoders`` are specs (``NAME=SPEC`` to name one); ``fuse`` entries join system
-    names with ``+``. The baseline defaults to the first system. ``agreement`` names two
+    names with ``+``. The baseline defaults to the first system. ``k`` results are kept
+    per query (None: DEFAULT_DEPTH, or every item of a smaller catalogue; more than the
+    catalogue holds is refused, as ``trawl search`` refuses it). ``agreement`` names two
     judgment sets whose system rankings are compared. ``scrub_queries`` replaces personal
     data (``privacy.scrub``) in the query text the report and tables show; searches
     still use the original text. ``threads`` is the compute thread count searches are
@@ -109,7 +111,7 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
         raise UsageError(f"-o {out} exists and is not a folder")
     cat = catalogue if isinstance(catalogue, Catalogue) else load_catalogue(catalogue, template)
     loaded = [load_set(js) for js in sets]
-    plan = _Plan(systems, baseline, metric_names, min(k, len(cat)), resamples, seed, alpha,
+    plan = _Plan(systems, baseline, metric_names, _depth(k, cat), resamples, seed, alpha,
                  retime, threads, quiet, scrub_queries, notify or (lambda _msg: None),
                  checked_limits(limits, metric_names[0]))
     check_writable(out, "output folder", folder=True)
@@ -163,9 +165,21 @@ def _evaluate_into(plan: _Plan, cat: Catalogue, loaded: Sequence[LoadedSet],
     return results
 
 
+def _depth(k: int | None, cat: Catalogue) -> int:
+    """Results kept per query: ``k``, or DEFAULT_DEPTH capped at the catalogue's size;
+    more than the catalogue holds is refused, as ``trawl search`` refuses it."""
+    if k is None:
+        return min(DEFAULT_DEPTH, len(cat))
+    if k > len(cat):
+        raise UsageError(f"{k} results per query asked for, but catalogue {cat.path} holds "
+                         f"{len(cat)} items; ask for at most {len(cat)}")
+    return k
+
+
 def _check_request(encoders: Sequence[str], fuse: Sequence[str], baseline: str | None,
-                   metrics: Sequence[str], k: int, resamples: int, threads: int | None,
-                   sets: Sequence[JudgmentSet], agreement: tuple[str, str] | None
+                   metrics: Sequence[str], k: int | None, resamples: int,
+                   threads: int | None, sets: Sequence[JudgmentSet],
+                   agreement: tuple[str, str] | None
                    ) -> tuple[list[System], str, list[str]]:
     """The systems, baseline and metric names of a request, or the first thing wrong."""
     systems = plan_systems(encoders, fuse)
@@ -174,7 +188,7 @@ def _check_request(encoders: Sequence[str], fuse: Sequence[str], baseline: str |
     if baseline not in names:
         raise UsageError(f"--baseline {baseline!r} is not one of the systems: {', '.join(names)}")
     metric_names = [m.name for m in parse_metrics(metrics)]
-    if k < 1:
+    if k is not None and k < 1:
         raise UsageError(f"k={k} must be >= 1")
     if resamples < 1:
         raise UsageError(f"resamples={resamples} must be >= 1")
