@@ -10,6 +10,7 @@ import pytest
 
 from trawl.errors import StaleIndexError, UsageError
 from trawl.index import build_index, open_index
+from trawl.index.manifest import HNSW_FILE
 from trawl.stores import INT8_FILE, StoreSettings
 
 from .retrieval_fakes import FakeLoader, tiny_catalogue
@@ -66,13 +67,33 @@ def test_an_fp32_index_opened_with_binary_settings_is_refused(tmp_path):
         open_index(tmp_path / "fp32", loader=loader, store=StoreSettings("binary"))
 
 
-def test_quantised_store_with_hnsw_or_bm25_is_refused_before_work(tmp_path):
-    with pytest.raises(UsageError, match="searched exhaustively; ann='hnsw'"):
-        build(tmp_path, "int8", ann="hnsw")
+def test_binary_store_with_hnsw_or_any_store_with_bm25_is_refused_before_work(tmp_path):
+    with pytest.raises(UsageError, match="'binary' is scanned by Hamming distance .* with "
+                                         "ann='hnsw' use store 'fp32' or 'int8'"):
+        build(tmp_path, "binary", ann="hnsw")
     with pytest.raises(UsageError, match="bm25 keeps an inverted index"):
         build_index(tiny_catalogue(), "bm25", tmp_path / "b", quiet=True,
                     store=StoreSettings("binary"))
-    assert not (tmp_path / "int8").exists() and not (tmp_path / "b").exists()
+    assert not (tmp_path / "binary").exists() and not (tmp_path / "b").exists()
+
+
+def test_int8_hnsw_walks_8_bit_codes_and_finds_what_the_exact_int8_store_finds(tmp_path):
+    # The graph holds 1-byte codes where the fp32 graph holds 4-byte floats; at the default
+    # settings on 200 items the graph search must return the exhaustive int8 search's top 10
+    # (HNSW at ef_search 128 over 200 items visits nearly all of them).
+    queries = {f"q{i}": f"question number {i}" for i in range(20)}
+    _, loader = build(tmp_path, "int8", name="int8-hnsw", ann="hnsw")
+    build(tmp_path, "fp32", name="fp32-hnsw", ann="hnsw")
+    build(tmp_path, "int8")
+    manifest = json.loads((tmp_path / "int8-hnsw" / "manifest.json").read_text())
+    assert manifest["store"]["kind"] == "int8" and manifest["search"]["ann"] == "hnsw"
+    graph = {k: (tmp_path / f"{k}-hnsw" / HNSW_FILE).stat().st_size for k in ("int8", "fp32")}
+    # 3 bytes saved a dimension, less the quantiser's per-dimension ranges and headers
+    assert graph["fp32"] - graph["int8"] >= 0.9 * 200 * 64 * 3
+    graph_run = open_index(tmp_path / "int8-hnsw", loader=loader).search(queries, 10, quiet=True)
+    exact = open_index(tmp_path / "int8", loader=loader).search(queries, 10, quiet=True)
+    for q in queries:
+        assert [i for i, _ in graph_run.results[q]] == [i for i, _ in exact.results[q]]
 
 
 # --- systems that ask for a store (eval, demo) ----------------------------------------------------

@@ -4,7 +4,8 @@
   inner product.
 - ``int8``: faiss's scalar quantiser, 8 bits a dimension with each dimension's own
   min/max range (``QT_8bit``): a quarter of the bytes, searched exhaustively by inner
-  product between the float query and the decoded vectors.
+  product between the float query and the decoded vectors (an HNSW index walks a graph
+  over the same codes instead; ``index.build``).
 - ``binary``: one sign bit a dimension (1/32 of the bytes), searched by Hamming distance
   for ``rescore_factor`` x depth candidates, which are then re-scored by inner product
   with int8 (default) or fp32 vectors. Only the bit codes are scanned; the re-scoring

@@ -53,8 +53,9 @@ def engine_conflicts(engine: str, address: str | None,
               help="HNSW candidate list while searching [128].")
 @click.option("--store", type=click.Choice(["fp32", "int8", "binary"]), default="fp32",
               show_default=True, help="How vectors are kept: as computed, 8 bits a number "
-                                      "(a quarter of the bytes), or 1 bit a number (1/32) with "
-                                      "the top candidates re-scored.")
+                                      "(a quarter of the bytes; with --ann hnsw the graph "
+                                      "walks these codes), or 1 bit a number (1/32) with "
+                                      "the top candidates re-scored (exact search only).")
 @click.option("--rescore", type=click.Choice(["int8", "fp32"]), default=None,
               help="Vectors that re-score a binary store's candidates [int8].")
 @click.option("--batch-size", type=int, default=32, show_default=True,
@@ -81,6 +82,7 @@ def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int 
       trawl index items.jsonl -e minilm-int8 -o idx/int8 --ann hnsw
       trawl index items.jsonl -e minilm-onnx -o idx/minilm-onnx
       trawl index items.jsonl -e minilm -o idx/minilm-binary-vectors --store binary
+      trawl index items.jsonl -e minilm -o idx/minilm-hnsw-int8 --ann hnsw --store int8
       trawl index items.jsonl -e minilm -o idx/minilm --engine ray --workers 8
     """
     from ..catalogue import load_catalogue
@@ -93,9 +95,9 @@ def index_command(catalogue: str, spec: str, output: str, ann: str, hnsw_m: int 
     reject([(v is not None and ann != "hnsw",
              f"--hnsw-{k.replace('_', '-')} needs --ann hnsw (got --ann {ann})")
             for k, v in given.items()]
-           + [(store != "fp32" and ann != "exact",
-               f"--store {store} and --ann {ann} conflict: a quantised store is searched "
-               "exhaustively; drop one"),
+           + [(store == "binary" and ann != "exact",
+               f"--store binary and --ann {ann} conflict: bit codes are scanned by Hamming "
+               "distance and re-scored, not walked as a graph; use --store int8 or fp32"),
               (rescore is not None and store != "binary",
                f"--rescore needs --store binary (got --store {store})")]
            + engine_conflicts(engine, address, workers))

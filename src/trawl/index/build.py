@@ -277,9 +277,10 @@ def _check_store(spec: EncoderSpec, ann: str, store: StoreSettings) -> None:
     if spec.lexical:
         raise UsageError(f"vector store {store.kind!r} applies to dense encoders; bm25 keeps "
                          "an inverted index, not vectors")
-    if ann != "exact":
-        raise UsageError(f"vector store {store.kind!r} is searched exhaustively; ann={ann!r} "
-                         "keeps its own fp32 vectors, so use store 'fp32' with it")
+    if ann != "exact" and store.kind == "binary":
+        raise UsageError(f"vector store 'binary' is scanned by Hamming distance and "
+                         f"re-scored, not walked as a graph; with ann={ann!r} use store "
+                         "'fp32' or 'int8'")
 
 
 def _write_dense(vectors: np.ndarray, ann: str, hnsw: HnswParams, store: StoreSettings,
@@ -291,7 +292,12 @@ def _write_dense(vectors: np.ndarray, ann: str, hnsw: HnswParams, store: StoreSe
         return {"metric": "inner_product"}, section
     import faiss
 
-    index = faiss.IndexHNSWFlat(vectors.shape[1], hnsw.m, faiss.METRIC_INNER_PRODUCT)
+    if store.kind == "int8":  # the graph walks the same 8-bit codes the store keeps
+        index = faiss.IndexHNSWSQ(vectors.shape[1], faiss.ScalarQuantizer.QT_8bit, hnsw.m,
+                                  faiss.METRIC_INNER_PRODUCT)
+        index.train(vectors)
+    else:
+        index = faiss.IndexHNSWFlat(vectors.shape[1], hnsw.m, faiss.METRIC_INNER_PRODUCT)
     index.hnsw.efConstruction = hnsw.ef_construction
     threads = faiss.omp_get_max_threads()
     faiss.omp_set_num_threads(1)  # parallel insertion links the graph in a racy order
