@@ -155,3 +155,13 @@ def test_systems_say_what_is_quantised_and_latency_says_when_the_machine_was_bus
     busy = latency_entry({"p50_ms": 3.0, "threads": 1, "busy": True, "cores": 2,
                           "load_before": [5.2, 4.0, 3.0], "load_after": [6.1, 4.1, 3.0]})
     assert (busy.threads, busy.load, busy.busy) == (1, 6.1, True)
+
+
+def test_eval_refuses_a_binary_store_with_hnsw_before_any_work(tmp_path):
+    from trawl.pipeline import JudgmentSet, evaluate
+
+    gold = JudgmentSet("gold", {"q1": "late fees"}, {"q1": {"a": 1}})
+    with pytest.raises(UsageError, match="'binary' is scanned by Hamming distance"):
+        evaluate(tiny_catalogue(), [gold], ["minilm", "minilm;store=binary"], tmp_path / "out",
+                 ann="hnsw", cache_dir=tmp_path / "c")
+    assert not (tmp_path / "out").exists() and not (tmp_path / "c").exists()

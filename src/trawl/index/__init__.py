@@ -11,9 +11,9 @@ gives byte-identical files.
 searches them; the names below are the package's public face.
 """
 
-from .build import DEFAULT_BATCH_SIZE, HnswParams, build_index
+from .build import DEFAULT_BATCH_SIZE, HnswParams, build_index, check_store
 from .manifest import ANN_KINDS, IndexInfo, read_manifest
 from .search import Index, open_index, open_recorded, retrieve
 
 __all__ = ["ANN_KINDS", "DEFAULT_BATCH_SIZE", "HnswParams", "Index", "IndexInfo", "build_index",
-           "open_index", "open_recorded", "read_manifest", "retrieve"]
+           "check_store", "open_index", "open_recorded", "read_manifest", "retrieve"]

@@ -71,7 +71,7 @@ def build_index(catalogue: Catalogue, spec: EncoderSpec | str, out_dir: str | Pa
     embedded (default: this process); ``store`` how vectors are kept (default fp32)."""
     enc_spec = as_spec(spec)
     store = store or StoreSettings()
-    _check_store(enc_spec, ann, store)
+    check_store(enc_spec, ann, store)
     if ann not in ANN_KINDS:
         raise UsageError(f"ann={ann!r} is not one of: {', '.join(ANN_KINDS)}")
     if enc_spec.lexical and ann != "exact":
@@ -271,7 +271,8 @@ class _RowStore:
         assert self._matrix is not None  # a catalogue has at least one item
         return self._matrix if isinstance(self._matrix, np.ndarray) else self._matrix.finish()
 
-def _check_store(spec: EncoderSpec, ann: str, store: StoreSettings) -> None:
+def check_store(spec: EncoderSpec, ann: str, store: StoreSettings) -> None:
+    """Refuse a store the encoder or the search cannot use (before any work)."""
     if store.kind == "fp32":
         return
     if spec.lexical:

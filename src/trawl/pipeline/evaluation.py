@@ -105,7 +105,7 @@ def evaluate(catalogue: str | Path | Catalogue, sets: Sequence[JudgmentSet],
     started = time.perf_counter()
     # everything that can be wrong with the request is checked before any work
     systems, baseline, metric_names = _check_request(
-        encoders, fuse, baseline, metrics, k, resamples, threads, sets, agreement)
+        encoders, fuse, baseline, metrics, k, resamples, threads, sets, agreement, ann)
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
         raise UsageError(f"-o {out} exists and is not a folder")
@@ -179,10 +179,15 @@ def _depth(k: int | None, cat: Catalogue) -> int:
 def _check_request(encoders: Sequence[str], fuse: Sequence[str], baseline: str | None,
                    metrics: Sequence[str], k: int | None, resamples: int,
                    threads: int | None, sets: Sequence[JudgmentSet],
-                   agreement: tuple[str, str] | None
+                   agreement: tuple[str, str] | None, ann: str
                    ) -> tuple[list[System], str, list[str]]:
     """The systems, baseline and metric names of a request, or the first thing wrong."""
+    from ..index import check_store
+
     systems = plan_systems(encoders, fuse)
+    for system in systems:
+        if system.spec is not None:
+            check_store(system.spec, ann, system.store)
     names = [s.name for s in systems]
     baseline = baseline or names[0]
     if baseline not in names:
