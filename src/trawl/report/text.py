@@ -352,11 +352,9 @@ def synth(d: Mapping[str, Any], related_grade: int) -> tuple[str, list[str]]:
 
 def index_built(d: Mapping[str, Any]) -> str:
     """One line on an index build (``IndexInfo.as_dict()``)."""
-    if d["dim"]:
-        done = (f"{d['dim']} dims, {d['ann']}, {d.get('store', 'fp32')} vectors): "
-                f"{d['embedded']} embedded, {d['reused']} from cache")
-    else:
-        done = "inverted index)"
+    done = (f"{d['dim']} dims, {d['ann']}, {d.get('store', 'fp32')} vectors): "
+            f"{d['embedded']} embedded, {d['reused']} from cache") if d["dim"] \
+        else "inverted index)"
     return (f"indexed {d['items']} items with {d['spec']} ({done}, {d['items_per_s']:.1f} "
             f"items/s; {d['bytes']:,} bytes -> {d['path']}"
             + _truncated(d.get("items_over_window"), "items"))
@@ -490,9 +488,8 @@ def summary(bundle: Mapping[str, Any]) -> str:
                      f"({fmt.interval(ag['tau']['low'], ag['tau']['high'], 2)}), "
                      f"Spearman's rho {fmt.num(ag['rho']['value'], 2)}; "
                      f"{len(ag['flips'])} pair(s) of systems change order")
-        firm = fmt.settled(ag.get("firm_pairs"), ag["a_label"], ag["b_label"])
-        if firm:  # tau counts near ties as flips; the settled pairs are the ones to read
-            lines.append(f"  {firm}")
+        if firm := fmt.settled(ag.get("firm_pairs"), ag["a_label"], ag["b_label"]):
+            lines.append(f"  {firm}")  # tau counts near ties as flips: read settled pairs
     lines.append(f"{fmt.MARK_LEGEND}; alpha {bundle['setup']['alpha']:g}, Holm-corrected over "
                  f"the systems compared with the baseline on {bundle['setup']['primary']}")
     return "\n".join(lines)
