@@ -87,6 +87,9 @@ def test_int8_hnsw_walks_8_bit_codes_and_finds_what_the_exact_int8_store_finds(t
     build(tmp_path, "int8")
     manifest = json.loads((tmp_path / "int8-hnsw" / "manifest.json").read_text())
     assert manifest["store"]["kind"] == "int8" and manifest["search"]["ann"] == "hnsw"
+    for kind in ("int8", "fp32"):  # only the graph is searched: no store file beside it
+        files = sorted(p.name for p in (tmp_path / f"{kind}-hnsw").iterdir())
+        assert files == sorted([HNSW_FILE, "ids.txt", "manifest.json"])
     graph = {k: (tmp_path / f"{k}-hnsw" / HNSW_FILE).stat().st_size for k in ("int8", "fp32")}
     # 3 bytes saved a dimension, less the quantiser's per-dimension ranges and headers
     assert graph["fp32"] - graph["int8"] >= 0.9 * 200 * 64 * 3

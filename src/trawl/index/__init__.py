@@ -2,10 +2,10 @@
 
 An index folder holds ``manifest.json`` (what was built, from what, with which library
 versions), ``ids.txt`` (one item id per line, catalogue order) and either the vector
-store's files (``vectors.npy`` for fp32, + ``hnsw.faiss`` for an HNSW index; int8 and
-binary stores in ``trawl.stores``) or a ``bm25/`` folder. Everything
-except the manifest's ``build`` section is a pure function of the inputs, so rebuilding
-gives byte-identical files.
+store's files (``vectors.npy`` for fp32; int8 and binary stores in ``trawl.stores``),
+an HNSW graph holding its own copy of the vectors (``hnsw.faiss``) or a ``bm25/``
+folder. Everything except the manifest's ``build`` section is a pure function of the
+inputs, so rebuilding gives byte-identical files.
 
 ``build`` writes folders, ``manifest`` describes and reads them, ``search`` opens and
 searches them; the names below are the package's public face.

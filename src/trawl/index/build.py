@@ -286,19 +286,21 @@ def check_store(spec: EncoderSpec, ann: str, store: StoreSettings) -> None:
 
 def _write_dense(vectors: np.ndarray, ann: str, hnsw: HnswParams, store: StoreSettings,
                  folder: Path) -> tuple[dict, dict]:
-    """Write the vector store (and the HNSW graph); returns the search parameters and the
-    store's manifest section."""
-    section = write_store(vectors, store, folder)
+    """Write the vector store, or for HNSW the graph holding its own copy of the vectors
+    (only that file is searched, so an exhaustive store beside it would only inflate the
+    index's size); returns the search parameters and the store's manifest section."""
     if ann == "exact":
-        return {"metric": "inner_product"}, section
+        return {"metric": "inner_product"}, write_store(vectors, store, folder)
     import faiss
 
-    if store.kind == "int8":  # the graph walks the same 8-bit codes the store keeps
-        index = faiss.IndexHNSWSQ(vectors.shape[1], faiss.ScalarQuantizer.QT_8bit, hnsw.m,
+    vectors = np.ascontiguousarray(vectors, dtype=np.float32)
+    n, dim = vectors.shape
+    if store.kind == "int8":  # the graph walks 8-bit codes, as the int8 store keeps them
+        index = faiss.IndexHNSWSQ(dim, faiss.ScalarQuantizer.QT_8bit, hnsw.m,
                                   faiss.METRIC_INNER_PRODUCT)
         index.train(vectors)
     else:
-        index = faiss.IndexHNSWFlat(vectors.shape[1], hnsw.m, faiss.METRIC_INNER_PRODUCT)
+        index = faiss.IndexHNSWFlat(dim, hnsw.m, faiss.METRIC_INNER_PRODUCT)
     index.hnsw.efConstruction = hnsw.ef_construction
     threads = faiss.omp_get_max_threads()
     faiss.omp_set_num_threads(1)  # parallel insertion links the graph in a racy order
@@ -307,6 +309,9 @@ def _write_dense(vectors: np.ndarray, ann: str, hnsw: HnswParams, store: StoreSe
     finally:
         faiss.omp_set_num_threads(threads)
     faiss.write_index(index, str(folder / HNSW_FILE))
+    section = {"kind": store.kind, "items": n, "dim": dim, "files": [HNSW_FILE],
+               "vector_bytes": n * (dim if store.kind == "int8" else 4 * dim),
+               "bytes": (folder / HNSW_FILE).stat().st_size}
     return {"metric": "inner_product", "m": hnsw.m, "ef_construction": hnsw.ef_construction,
             "ef_search": hnsw.ef_search}, section
 
