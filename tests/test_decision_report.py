@@ -122,6 +122,29 @@ def test_chart_labels_do_not_overlap():
                 assert apart, f"labels {a[4]!r} and {b[4]!r} overlap in {svg[:80]}"
 
 
+# The demo's silver-set chart (invented demo data: name, p50 ms, nDCG@10, interval), where
+# "minilm-onnx" and "minilm" were drawn 2 px apart on one line: "minilm-onnxminilm".
+DEMO_POINTS = [("minilm", 23.25, 0.604, 0.579, 0.629),
+               ("minilm-int8", 14.74, 0.59, 0.565, 0.616),
+               ("minilm-onnx", 8.87, 0.604, 0.579, 0.629),
+               ("minilm-onnx-int8", 5.35, 0.603, 0.577, 0.628),
+               ("minilm.vectors-int8", 25.08, 0.604, 0.579, 0.629),
+               ("minilm.vectors-binary", 21.33, 0.604, 0.579, 0.629),
+               ("static", 0.43, 0.464, 0.436, 0.491), ("bm25", 0.27, 0.512, 0.486, 0.538),
+               ("minilm+bm25", 24.97, 0.613, 0.589, 0.636)]
+
+
+def test_labels_side_by_side_keep_a_character_apart():
+    from trawl.report.charts import Point, look, quality_latency
+
+    points = [Point(n, x, y, lo, hi, look(k)) for k, (n, x, y, lo, hi) in enumerate(DEMO_POINTS)]
+    boxes = _boxes(ET.fromstring(str(quality_latency(points, "ndcg@10", "c", "t"))))
+    for i, a in enumerate(boxes):
+        for b in boxes[i + 1:]:
+            assert (a[2] + CHAR_PX <= b[0] or b[2] + CHAR_PX <= a[0]
+                    or a[3] <= b[1] or b[3] <= a[1]), f"{a[4]!r} and {b[4]!r} read as one"
+
+
 def test_the_overlap_check_catches_overlapping_labels():
     """Positive control for the check above: two labels drawn at one spot overlap."""
     svg = ET.fromstring(f'<svg xmlns="{NS[1:-1]}"><text x="10" y="20">minilm</text>'

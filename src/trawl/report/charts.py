@@ -22,6 +22,7 @@ MARKERS = ("circle", "square", "triangle", "diamond", "down", "cross")
 
 FONT_PX = 12
 LABEL_GAP = 14  # vertical room one point label needs
+LABEL_PAD = 7  # room between two labels on one line: touching, they read as one word
 MIN_LATENCY_MS = 1e-3  # a log axis cannot show 0; faster runs are drawn at 1 microsecond
 
 
@@ -188,8 +189,8 @@ def _place_labels(points: Sequence[tuple[float, float, str]], top: float,
         first = None  # nearest baseline clear of other labels
         for off in offsets:
             cand = min(max(y + 4 + off, top + FONT_PX), bottom - 2)
-            if any(abs(cand - ty) < LABEL_GAP and tl <= right and left <= tr
-                   for tl, tr, ty in taken):
+            if any(abs(cand - ty) < LABEL_GAP and tl - LABEL_PAD <= right
+                   and left <= tr + LABEL_PAD for tl, tr, ty in taken):
                 continue
             first = cand if first is None else first
             if not covers_a_marker(i, left, right, cand):
