@@ -294,6 +294,17 @@ def test_agreement_says_how_firmly_each_set_holds_the_pairs_that_swap():
     assert text.index("Silver set swaps 0") < text.index("Agreement: silver set")  # top notice
 
 
+def test_the_silver_notice_reads_the_silver_side_whichever_side_it_is():
+    bundle = copy.deepcopy(sample_bundle())
+    ag = bundle["agreement"]
+    ag.update(a="gold", b="silver", a_label="gold set", b_label="silver set")
+    ag["firm_pairs"] = {"threshold": 0.9, "pairs": 3, "settled_a": 2, "swapped_by_b": 1,
+                        "settled_b": 3, "swapped_by_a": 0}
+    text = " ".join(" ".join(_parse(render_html(bundle)).text).split())
+    assert "Measured against gold set: Kendall's tau" in text
+    assert "Silver set swaps 1 of the 2 pairs of systems that gold set settles" in text
+
+
 def test_column_headers_wrap_between_name_parts_not_inside_words():
     """At 1400 px the per-type table's headers read 'minil m', 'stati c', 'bm2 5': headers
     could break anywhere. They now break only after . - _ @ + / (a <wbr> there), and the

@@ -88,13 +88,17 @@ def _silver_trust(bundle: Mapping[str, Any]) -> Markup | str:
         return ("How well they rank systems the way people would is not measured here; "
                 "review a sample (trawl review) or add human judgments to find out.")
     tau, firm = ag["tau"], ag.get("firm_pairs")
+    silver = {e["name"] for e in bundle["evaluations"] if e.get("silver")}
+    # the silver side against the other (A is silver unless only B is)
+    me, other = ("b", "a") if ag["b"] in silver and ag["a"] not in silver else ("a", "b")
+    mine = ag[f"{me}_label"][:1].upper() + ag[f"{me}_label"][1:]
     # tau counts near ties as disagreements; the pairs people settle are the ones to trust
-    a = ag["a_label"][:1].upper() + ag["a_label"][1:]
-    settled = (f" {a} swaps {firm['swapped_by_a']} of the {firm['settled_b']} pairs of "
-               f"systems that {ag['b_label']} settles (keeps in order in at least "
-               f"{100 * firm['threshold']:.0f}% of bootstrap resamples); a pair you decide "
-               "on is settled only by judging real queries (trawl review).") if firm else ""
-    return join(f"Measured against {ag['b_label']}: Kendall's tau between the two sets' "
+    settled = (f" {mine} swaps {firm[f'swapped_by_{me}']} of the {firm[f'settled_{other}']} "
+               f"pairs of systems that {ag[f'{other}_label']} settles (keeps in order in at "
+               f"least {100 * firm['threshold']:.0f}% of bootstrap resamples); a pair you "
+               "decide on is settled only by judging real queries (trawl review).") \
+        if firm else ""
+    return join(f"Measured against {ag[f'{other}_label']}: Kendall's tau between the two sets' "
                 f"system rankings is {fmt.num(tau['value'], 2)} (interval "
                 f"{fmt.interval(tau['low'], tau['high'], 2)}) over {len(ag['systems'])} systems "
                 "(1: same order, -1: reversed).", settled, " See ",
