@@ -63,13 +63,10 @@ def _slug(text: str) -> str:
 def _masthead(bundle: Mapping[str, Any], title: str) -> Markup:
     cat = bundle["setup"]["catalogue"]
     silver = [ev for ev in bundle["evaluations"] if ev.get("silver")]
-    notice = None
-    if silver:
-        names = ", ".join(ev["label"] for ev in silver)
-        notice = el("p", {"class_": "notice", "role": "note"},
-                    el("strong", None, "Silver judgments are estimates. "),
-                    f"The figures under {names} come from machine-made judgments, not people. ",
-                    _silver_trust(bundle))
+    notice = el("p", {"class_": "notice", "role": "note"},
+                el("strong", None, "Silver judgments are estimates. "),
+                f"The figures under {', '.join(ev['label'] for ev in silver)} come from "
+                "machine-made judgments, not people. ", _silver_trust(bundle)) if silver else None
     return el("header", {"class_": "masthead"},
               el("p", {"class_": "kicker"}, "trawl · search evaluation"),
               el("h1", None, title),
@@ -89,15 +86,14 @@ def _silver_trust(bundle: Mapping[str, Any]) -> Markup | str:
                 "review a sample (trawl review) or add human judgments to find out.")
     tau, firm = ag["tau"], ag.get("firm_pairs")
     silver = {e["name"] for e in bundle["evaluations"] if e.get("silver")}
-    # the silver side against the other (A is silver unless only B is)
     me, other = ("b", "a") if ag["b"] in silver and ag["a"] not in silver else ("a", "b")
     mine = ag[f"{me}_label"][:1].upper() + ag[f"{me}_label"][1:]
     # tau counts near ties as disagreements; the pairs people settle are the ones to trust
-    settled = (f" {mine} swaps {firm[f'swapped_by_{me}']} of the {firm[f'settled_{other}']} "
-               f"pairs of systems that {ag[f'{other}_label']} settles (keeps in order in at "
-               f"least {100 * firm['threshold']:.0f}% of bootstrap resamples); a pair you "
-               "decide on is settled only by judging real queries (trawl review).") \
-        if firm else ""
+    settled = "" if not firm else (
+        f" {mine} swaps {firm[f'swapped_by_{me}']} of the {firm[f'settled_{other}']} pairs of "
+        f"systems that {ag[f'{other}_label']} settles (keeps in order in at least "
+        f"{100 * firm['threshold']:.0f}% of bootstrap resamples); a pair you decide on is "
+        "settled only by judging real queries (trawl review).")
     return join(f"Measured against {ag[f'{other}_label']}: Kendall's tau between the two sets' "
                 f"system rankings is {fmt.num(tau['value'], 2)} (interval "
                 f"{fmt.interval(tau['low'], tau['high'], 2)}) over {len(ag['systems'])} systems "
