@@ -305,6 +305,14 @@ def test_the_silver_notice_reads_the_silver_side_whichever_side_it_is():
     assert "Silver set swaps 1 of the 2 pairs of systems that gold set settles" in text
 
 
+def test_systems_table_keeps_ids_whole_and_breaks_specs_between_parts(page):
+    """At 1400 px the systems table read '808a05c4ab9' '3' and 'minilm-int' '8': code cells
+    broke anywhere. Fingerprints now never break; specs break only between parts."""
+    assert re.search(r'<code class="whole">[0-9a-f]{12}</code>', page)
+    assert '<code class="parts">minilm-<wbr>int8</code>' in page
+    assert "code.whole{white-space:nowrap" in page
+
+
 def test_column_headers_wrap_between_name_parts_not_inside_words():
     """At 1400 px the per-type table's headers read 'minil m', 'stati c', 'bm2 5': headers
     could break anywhere. They now break only after . - _ @ + / (a <wbr> there), and the

@@ -185,10 +185,12 @@ def _setup(bundle: Mapping[str, Any], looks: Mapping[str, Look]) -> Markup:
                        numeric=[False, False, True, True, False])
     sys_rows = []
     for s in bundle["systems"]:
-        sys_rows.append([_swatch(s["name"], looks), el("code", None, s.get("spec", "")),
+        # ids whole, specs broken only between their parts ("minilm-" "int8")
+        sys_rows.append([_swatch(s["name"], looks),
+                         el("code", {"class_": "parts"}, breakable(s.get("spec", ""))),
                          s.get("kind", ""),
-                         el("code", None, s["fingerprint"][:12]) if s.get("fingerprint")
-                         else fmt.MISSING,
+                         el("code", {"class_": "whole"}, s["fingerprint"][:12])
+                         if s.get("fingerprint") else fmt.MISSING,
                          s.get("dimensions") or fmt.MISSING, s.get("quantised", "none"),
                          s.get("store") or fmt.MISSING, fmt.size(s.get("vector_bytes")),
                          fmt.size(s.get("index_bytes")), fmt.size(s.get("bytes_per_item"))])

@@ -10,6 +10,8 @@ body{margin:0 auto;max-width:64rem;padding:1.5rem 1.25rem 3rem;
 font:15px/1.5 system-ui,-apple-system,"Segoe UI",Roboto,"Noto Sans",sans-serif}
 code{font:0.86em ui-monospace,"SF Mono",Menlo,Consolas,monospace;background:#efe9dc;
 padding:0 .25em;border-radius:3px;word-break:break-all}
+code.whole{white-space:nowrap;word-break:normal}
+code.parts{word-break:normal}
 .masthead{border-bottom:3px double var(--rule);padding-bottom:.75rem;margin-bottom:1rem}
 .kicker{margin:0;text-transform:uppercase;letter-spacing:.12em;font-size:.75rem;color:var(--accent);
 font-weight:700}
