@@ -104,6 +104,16 @@ def _refuse_stale(folder: Path, manifest: Mapping[str, Any], catalogue: Catalogu
             "use the template it was built with")
 
 
+def check_depth(k: int, items: int, holder: str) -> None:
+    """Refuse ``k`` results per query below 1 or above the ``items`` that ``holder``
+    (an index, a catalogue) has, rather than cut the request without a word."""
+    if k < 1:
+        raise UsageError(f"k={k} must be >= 1")
+    if k > items:
+        raise UsageError(f"{k} results per query asked for, but {holder} holds {items} "
+                         f"items; ask for at most {items}")
+
+
 class Index:
     """A loaded index: answers batches of queries (``search``) or one at a time (``search_one``)."""
 
@@ -166,11 +176,7 @@ class Index:
         return self._encoder
 
     def check_k(self, k: int) -> None:
-        if k < 1:
-            raise UsageError(f"k={k} must be >= 1")
-        if k > len(self.ids):
-            raise UsageError(f"{k} results per query asked for, but index {self.path} holds "
-                             f"{len(self.ids)} items; ask for at most {len(self.ids)}")
+        check_depth(k, len(self.ids), f"index {self.path}")
 
     def search(self, queries: Mapping[str, str], k: int = 100, quiet: bool = False,
                name: str | None = None) -> Run:

@@ -168,11 +168,11 @@ def _evaluate_into(plan: _Plan, cat: Catalogue, loaded: Sequence[LoadedSet],
 def _depth(k: int | None, cat: Catalogue) -> int:
     """Results kept per query: ``k``, or DEFAULT_DEPTH capped at the catalogue's size;
     more than the catalogue holds is refused, as ``trawl search`` refuses it."""
+    from ..index.search import check_depth
+
     if k is None:
         return min(DEFAULT_DEPTH, len(cat))
-    if k > len(cat):
-        raise UsageError(f"{k} results per query asked for, but catalogue {cat.path} holds "
-                         f"{len(cat)} items; ask for at most {len(cat)}")
+    check_depth(k, len(cat), f"catalogue {cat.path}")
     return k
 
 
