@@ -86,6 +86,13 @@ class FirmPairs:
                 "settled_b": self.settled_b, "swapped_by_a": self.swapped_by_a}
 
 
+def seen_from(firm: Mapping[str, Any], side: str) -> tuple[int, int]:
+    """For the set on ``side`` ('a' or 'b') of ``FirmPairs.as_dict()``: the pairs the other
+    set settles, and how many of those this set swaps."""
+    other = "b" if side == "a" else "a"
+    return firm[f"settled_{other}"], firm[f"swapped_by_{side}"]
+
+
 @dataclass(frozen=True)
 class Agreement:
     """How alike two judgment sets rank a set of systems."""

@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import time
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import asdict, dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -301,6 +301,7 @@ def _agreement(plan: _Plan, pair: tuple[str, str], loaded: Sequence[LoadedSet],
 def _judged_by(ev: Evaluation, agreed: AgreementInfo | None) -> Evaluation:
     """``ev`` with the line saying who judged it: for silver, that the figures are
     estimates, with the agreement measured against the other set when there is one."""
+    from ..agreement import seen_from
     from ..silver import MeasuredAgreement, silver_note
 
     if ev.origin == "unknown":
@@ -313,9 +314,7 @@ def _judged_by(ev: Evaluation, agreed: AgreementInfo | None) -> Evaluation:
     mine = ev.name == agreed.a
     other = agreed.b_label if mine else agreed.a_label
     tau, firm = agreed.tau, agreed.firm_pairs
-    settled = swapped = None
-    if firm is not None:
-        settled, swapped = ((firm.settled_b, firm.swapped_by_a) if mine
-                            else (firm.settled_a, firm.swapped_by_b))
+    settled, swapped = (None, None) if firm is None else \
+        seen_from(asdict(firm), "a" if mine else "b")
     return replace(ev, judged_by=silver_note(
         measured=MeasuredAgreement(other, tau.value, tau.low, tau.high, settled, swapped)))

@@ -13,6 +13,7 @@ import re
 from collections.abc import Mapping, Sequence
 from typing import Any
 
+from ..agreement import seen_from
 from . import format as fmt
 from .charts import (Bar, BarGroup, Look, Point, agreement_scatter, grouped_bars, look,
                      quality_latency)
@@ -87,13 +88,12 @@ def _silver_trust(bundle: Mapping[str, Any]) -> Markup | str:
     tau, firm = ag["tau"], ag.get("firm_pairs")
     silver = {e["name"] for e in bundle["evaluations"] if e.get("silver")}
     me, other = ("b", "a") if ag["b"] in silver and ag["a"] not in silver else ("a", "b")
-    mine = ag[f"{me}_label"][:1].upper() + ag[f"{me}_label"][1:]
-    # tau counts near ties as disagreements; the pairs people settle are the ones to trust
-    settled = "" if not firm else (
-        f" {mine} swaps {firm[f'swapped_by_{me}']} of the {firm[f'settled_{other}']} pairs of "
-        f"systems that {ag[f'{other}_label']} settles (keeps in order in at least "
-        f"{100 * firm['threshold']:.0f}% of bootstrap resamples); a pair you decide on is "
-        "settled only by judging real queries (trawl review).")
+    theirs, swapped = seen_from(firm, me) if firm else (0, 0)
+    settled = "" if not firm else (  # tau counts near ties; settled pairs are what to trust
+        f" {ag[f'{me}_label'][:1].upper()}{ag[f'{me}_label'][1:]} swaps {swapped} of the "
+        f"{theirs} pairs of systems that {ag[f'{other}_label']} settles (keeps in order in "
+        f"at least {100 * firm['threshold']:.0f}% of bootstrap resamples); a pair you decide "
+        "on is settled only by judging real queries (trawl review).")
     return join(f"Measured against {ag[f'{other}_label']}: Kendall's tau between the two sets' "
                 f"system rankings is {fmt.num(tau['value'], 2)} (interval "
                 f"{fmt.interval(tau['low'], tau['high'], 2)}) over {len(ag['systems'])} systems "
