@@ -109,6 +109,12 @@ def _boxes(svg: ET.Element) -> list[tuple[float, float, float, float, str]]:
     return out
 
 
+def _clashes(boxes, gap: float = 0.0) -> list[tuple[str, str]]:
+    """Pairs of text boxes that overlap, or on one line stand less than ``gap`` apart."""
+    return [(a[4], b[4]) for i, a in enumerate(boxes) for b in boxes[i + 1:]
+            if not (a[2] + gap <= b[0] or b[2] + gap <= a[0] or a[3] <= b[1] or b[3] <= a[1])]
+
+
 def test_chart_labels_do_not_overlap():
     page = render_html(bundle_with_decision())
     svgs = re.findall(r"<svg.*?</svg>", page, flags=re.S)
@@ -116,10 +122,7 @@ def test_chart_labels_do_not_overlap():
     for svg in svgs:
         boxes = _boxes(ET.fromstring(svg))
         assert len(boxes) > 5
-        for i, a in enumerate(boxes):
-            for b in boxes[i + 1:]:
-                apart = a[2] <= b[0] or b[2] <= a[0] or a[3] <= b[1] or b[3] <= a[1]
-                assert apart, f"labels {a[4]!r} and {b[4]!r} overlap in {svg[:80]}"
+        assert not _clashes(boxes), f"labels overlap in {svg[:80]}"
 
 
 # The demo's silver-set chart (invented demo data: name, p50 ms, nDCG@10, interval), where
@@ -139,18 +142,14 @@ def test_labels_side_by_side_keep_a_character_apart():
 
     points = [Point(n, x, y, lo, hi, look(k)) for k, (n, x, y, lo, hi) in enumerate(DEMO_POINTS)]
     boxes = _boxes(ET.fromstring(str(quality_latency(points, "ndcg@10", "c", "t"))))
-    for i, a in enumerate(boxes):
-        for b in boxes[i + 1:]:
-            assert (a[2] + CHAR_PX <= b[0] or b[2] + CHAR_PX <= a[0]
-                    or a[3] <= b[1] or b[3] <= a[1]), f"{a[4]!r} and {b[4]!r} read as one"
+    assert not _clashes(boxes, gap=CHAR_PX)  # closer, two labels read as one word
 
 
 def test_the_overlap_check_catches_overlapping_labels():
     """Positive control for the check above: two labels drawn at one spot overlap."""
     svg = ET.fromstring(f'<svg xmlns="{NS[1:-1]}"><text x="10" y="20">minilm</text>'
                         '<text x="30" y="22">bm25</text></svg>')
-    a, b = _boxes(svg)
-    assert not (a[2] <= b[0] or b[2] <= a[0] or a[3] <= b[1] or b[3] <= a[1])
+    assert _clashes(_boxes(svg)) == [("minilm", "bm25")]
 
 
 @pytest.mark.slow
