@@ -36,19 +36,17 @@ def cranfield() -> Path:
 
 
 @pytest.fixture(scope="session")
-def cranfield_minilm_vectors(cranfield, tmp_path_factory):
-    """trawl's torch fp32 minilm vectors of every Cranfield item, from an index built once
-    per session through the session's embedding cache (the Cranfield silver check and the
-    retrieval checks reuse the same embeddings): the reference of the ONNX check, and
-    itself checked against sentence-transformers' encode."""
-    import numpy as np
-
+def cranfield_minilm_index(cranfield, tmp_path_factory) -> Path:
+    """Every Cranfield item indexed with trawl's torch fp32 minilm, built once per session
+    through the session's embedding cache (the Cranfield silver check reuses the
+    embeddings): the retrieval checks search it, the ONNX check compares its vectors, and
+    they are themselves checked against sentence-transformers' encode."""
     from trawl.catalogue import load_catalogue
     from trawl.index import build_index
 
     folder = tmp_path_factory.mktemp("cranfield-minilm") / "index"
     build_index(load_catalogue(cranfield / "catalogue.jsonl"), "minilm", folder, quiet=True)
-    return np.load(folder / "vectors.npy")
+    return folder
 
 
 @pytest.fixture(scope="session")

@@ -192,13 +192,13 @@ def test_onnx_token_vectors_equal_torch_on_the_same_tokens(exported):
 
 @pytest.mark.slow
 def test_minilm_onnx_vectors_match_torch_on_every_cranfield_item(
-        cranfield, export_root, cranfield_minilm_vectors):
+        cranfield, export_root, cranfield_minilm_index):
     # Reference: the torch fp32 minilm encoder (sentence-transformers' encode, checked
     # against it in tests/external/test_retrieval_reference.py), on every item of the
     # Cranfield collection (1,400 aeronautics abstracts, an open test collection).
     # Goal from the deployment-variants issue: cosine >= 0.9999 on every item.
     texts = load_catalogue(cranfield / "catalogue.jsonl").texts()
-    reference = cranfield_minilm_vectors
+    reference = np.load(cranfield_minilm_index / "vectors.npy")
     encoder = onnx_enc.OnnxEncoder(EncoderSpec("minilm-onnx"), EncoderLoader(), export_root)
     ours = encoder.encode_documents(texts)
     cosine = (ours * reference).sum(axis=1)
