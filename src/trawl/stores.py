@@ -80,42 +80,45 @@ def write_store(vectors: np.ndarray, settings: StoreSettings, folder: Path) -> d
     fp32 vectors a build already wrote into place (``index.rowfile``) are not written again."""
     in_place = written_in_place(vectors, folder / FP32_FILE)
     vectors = np.ascontiguousarray(vectors, dtype=np.float32)
-    n, dim = vectors.shape
-    section: dict[str, Any] = {"kind": settings.kind, "items": n, "dim": dim}
     if settings.kind == "fp32":
         if not in_place:
             _save_npy(folder / FP32_FILE, vectors)
-        section["files"] = [FP32_FILE]
-        section["vector_bytes"] = vectors.nbytes
-    elif settings.kind == "int8":
+        return store_section(settings.kind, vectors.shape, folder, [FP32_FILE], vectors.nbytes)
+    if settings.kind == "int8":
         index = _int8_index(vectors)
         index.add(vectors)
         _write_faiss(index, folder / INT8_FILE)
-        section["files"] = [INT8_FILE]
-        section["vector_bytes"] = n * index.sa_code_size()
-    else:
-        section.update(_write_binary(vectors, settings, folder))
-    section["bytes"] = sum((folder / f).stat().st_size for f in section["files"])
-    return section
+        return store_section(settings.kind, vectors.shape, folder, [INT8_FILE],
+                             len(vectors) * index.sa_code_size())
+    return _write_binary(vectors, settings, folder)
+
+
+def store_section(kind: str, shape: tuple[int, ...], folder: Path, files: list[str],
+                  vector_bytes: int, **extra: Any) -> dict[str, Any]:
+    """The manifest's store section, one shape for exhaustive stores and HNSW graphs, so
+    every index's size is counted from the files it searches."""
+    n, dim = shape
+    return {"kind": kind, "items": n, "dim": dim, **extra, "files": files,
+            "vector_bytes": vector_bytes,
+            "bytes": sum((folder / f).stat().st_size for f in files)}
 
 
 def _write_binary(vectors: np.ndarray, settings: StoreSettings, folder: Path) -> dict[str, Any]:
     codes = sign_codes(vectors)
     _save_npy(folder / BINARY_FILE, codes)
-    out: dict[str, Any] = {"rescore": settings.rescore, "rescore_factor": settings.rescore_factor,
-                           "vector_bytes": codes.nbytes}
+    extra: dict[str, Any] = {"rescore": settings.rescore,
+                             "rescore_factor": settings.rescore_factor}
     if settings.rescore == "fp32":
         _save_npy(folder / FP32_FILE, vectors)
-        out["files"] = [BINARY_FILE, FP32_FILE]
-        out["rescore_bytes"] = vectors.nbytes
+        files, extra["rescore_bytes"] = [BINARY_FILE, FP32_FILE], vectors.nbytes
     else:
         params = _int8_index(vectors)   # trained ranges only; the codes go to a memory-mapped file
         rescore = params.sa_encode(vectors)
         _write_faiss(params, folder / RESCORE_PARAMS)
         _save_npy(folder / RESCORE_CODES, rescore)
-        out["files"] = [BINARY_FILE, RESCORE_CODES, RESCORE_PARAMS]
-        out["rescore_bytes"] = rescore.nbytes
-    return out
+        files = [BINARY_FILE, RESCORE_CODES, RESCORE_PARAMS]
+        extra["rescore_bytes"] = rescore.nbytes
+    return store_section(settings.kind, vectors.shape, folder, files, codes.nbytes, **extra)
 
 
 def sign_codes(vectors: np.ndarray) -> np.ndarray:

@@ -33,7 +33,7 @@ from ..files import atomic_write, check_writable, fsync_dir
 from ..progress import progress
 from ..retrievers.loading import EncoderLoader, default_loader
 from ..retrievers.spec import EncoderSpec, as_spec
-from ..stores import FP32_FILE, StoreSettings, write_store
+from ..stores import FP32_FILE, StoreSettings, store_section, write_store
 from .manifest import (ANN_KINDS, HNSW_FILE, IDS, LEXICAL_DIR, MANIFEST, IndexInfo,
                        info_from_manifest, make_manifest, package_version, write_json)
 from .rowfile import RowFile
@@ -309,9 +309,8 @@ def _write_dense(vectors: np.ndarray, ann: str, hnsw: HnswParams, store: StoreSe
     finally:
         faiss.omp_set_num_threads(threads)
     faiss.write_index(index, str(folder / HNSW_FILE))
-    section = {"kind": store.kind, "items": n, "dim": dim, "files": [HNSW_FILE],
-               "vector_bytes": n * (dim if store.kind == "int8" else 4 * dim),
-               "bytes": (folder / HNSW_FILE).stat().st_size}
+    section = store_section(store.kind, vectors.shape, folder, [HNSW_FILE],
+                            n * index.storage.sa_code_size())
     return {"metric": "inner_product", "m": hnsw.m, "ef_construction": hnsw.ef_construction,
             "ef_search": hnsw.ef_search}, section
 
