@@ -79,6 +79,6 @@ def test_building_and_searching_log_nothing_below_warning(tmp_path, caplog):
     texts = ["renew a loan online", "reserve a study room", "pay late fees"]
     index = LexicalIndex.build(texts, spec)
     index.save(tmp_path)
-    LexicalIndex.load(tmp_path).scores(["late fees"])
+    LexicalIndex.load(tmp_path, spec).scores(["late fees"])
     assert [r for r in caplog.records
             if r.name.startswith("bm25s") and r.levelno < logging.WARNING] == []

@@ -84,8 +84,10 @@ def test_int8_variant_stays_close_to_fp32(cran, minilm_cranfield, record_propert
 
 # --- BM25 against rank-bm25 -------------------------------------------------------------------------
 
-def test_bm25_agrees_with_rank_bm25_on_cranfield(cran):
-    # Reference: rank-bm25's BM25Okapi. The variants differ in two places only: rank-bm25
+@pytest.mark.parametrize("stem", ["none", "english"])
+def test_bm25_agrees_with_rank_bm25_on_cranfield(cran, stem):
+    # Reference: rank-bm25's BM25Okapi, over the same tokens (stemmed by Snowball's
+    # English stemmer when stem=english, so both the items' and the queries' terms are). The variants differ in two places only: rank-bm25
     # uses idf log((N - df + 0.5) / (df + 0.5)) with a floor, and multiplies by (k1 + 1).
     # We give it Lucene's idf log(1 + (N - df + 0.5) / (df + 0.5)) (what bm25s "lucene"
     # uses); the (k1 + 1) factor is a constant, so orderings must agree and score ratios
@@ -93,18 +95,18 @@ def test_bm25_agrees_with_rank_bm25_on_cranfield(cran):
     from rank_bm25 import BM25Okapi
 
     cat, queries, _ = cran
-    tokens = tokenise(cat.texts())
+    tokens = tokenise(cat.texts(), stem)
     reference = BM25Okapi([t or [""] for t in tokens], k1=1.5, b=0.75)
     n = len(tokens)
     reference.doc_len = [len(t) for t in tokens]          # empty items have length 0
     reference.avgdl = sum(reference.doc_len) / n
     reference.idf = {w: math.log(1 + (n - df + 0.5) / (df + 0.5))
                      for w, df in _doc_freqs(tokens).items()}
-    ours = LexicalIndex.build(cat.texts(), parse_spec("bm25"))
+    ours = LexicalIndex.build(cat.texts(), parse_spec(f"bm25;stem={stem}"))
     qids = list(queries)[:60]
     mine = ours.scores([queries[q] for q in qids])
     for row, qid in zip(mine, qids):
-        ref = reference.get_scores(tokenise([queries[qid]])[0])
+        ref = reference.get_scores(tokenise([queries[qid]], stem)[0])
         np.testing.assert_allclose(row * 2.5, ref, rtol=2e-5, atol=1e-5)
         top_ref = np.argsort(-ref, kind="stable")[:10]
         top_ours = np.argsort(-row, kind="stable")[:10]

@@ -12,8 +12,6 @@ from __future__ import annotations
 
 import contextlib
 import fcntl
-import hashlib
-import json
 import os
 import shutil
 import time
@@ -35,7 +33,7 @@ from ..retrievers.loading import EncoderLoader, default_loader
 from ..retrievers.spec import EncoderSpec, as_spec
 from ..stores import FP32_FILE, StoreSettings, store_section, write_store
 from .manifest import (ANN_KINDS, HNSW_FILE, IDS, LEXICAL_DIR, MANIFEST, IndexInfo,
-                       info_from_manifest, make_manifest, package_version, write_json)
+                       info_from_manifest, lexical_recipe, make_manifest, write_json)
 from .rowfile import RowFile
 
 EMBED_CHUNK = 256   # texts per cache commit: the unit an interrupted build resumes from
@@ -316,12 +314,10 @@ def _write_dense(vectors: np.ndarray, ann: str, hnsw: HnswParams, store: StoreSe
 
 
 def _write_lexical(catalogue: Catalogue, spec: EncoderSpec, folder: Path) -> tuple[str, int, int]:
-    from ..retrievers.lexical import TOKENISER, LexicalIndex
+    from ..retrievers.lexical import LexicalIndex
 
     LexicalIndex.build(catalogue.texts(), spec).save(folder / LEXICAL_DIR)
-    recipe = [spec.as_dict(), TOKENISER, package_version("bm25s")]
-    fingerprint = hashlib.sha256(json.dumps(recipe, sort_keys=True).encode()).hexdigest()[:16]
-    return fingerprint, 0, len(catalogue)
+    return lexical_recipe(spec), 0, len(catalogue)
 
 
 def _write_ids(path: Path, ids: list[str]) -> None:

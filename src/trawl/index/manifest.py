@@ -7,6 +7,7 @@ catalogue (fingerprint, template), the search structure and library versions; on
 
 from __future__ import annotations
 
+import hashlib
 import json
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -138,6 +139,19 @@ def folder_bytes(folder: Path) -> int:
 def write_json(path: Path, obj: Any) -> None:
     with atomic_write(path) as fh:
         fh.write(json.dumps(obj, indent=2, ensure_ascii=False) + "\n")
+
+
+def lexical_recipe(spec: EncoderSpec) -> str:
+    """What decides a lexical index's scores: the spec, the tokeniser and the libraries'
+    versions. Recorded as its fingerprint at build and compared on open, so a cached
+    index tokenised another way is rebuilt, never searched with other query terms."""
+    from ..retrievers.lexical import TOKENISER
+
+    recipe: list[Any] = [spec.as_dict(), TOKENISER, package_version("bm25s")]
+    if spec.stem != "none":  # unstemmed recipes stay as earlier versions wrote them
+        recipe[1] = {**TOKENISER, "stemmer": f"snowball {spec.stem}"}
+        recipe.append(package_version("PyStemmer"))
+    return hashlib.sha256(json.dumps(recipe, sort_keys=True).encode()).hexdigest()[:16]
 
 
 def package_version(package: str) -> str:

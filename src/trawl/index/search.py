@@ -22,7 +22,7 @@ from ..runs import Run
 from ..stores import StoreSettings, load_store, store_settings_from
 from .build import build_index, swap_lock
 from .manifest import HNSW_FILE, IDS, LEXICAL_DIR, IndexInfo, folder_bytes, \
-    info_from_manifest, read_manifest
+    info_from_manifest, lexical_recipe, read_manifest
 
 QUERY_BATCH = 64    # queries encoded together by Index.search
 
@@ -57,6 +57,8 @@ def _open(folder: Path, catalogue: Catalogue | None, spec: EncoderSpec | str | N
             + REBUILD.format(cat=manifest["catalogue"]["path"], spec=wanted, out=folder))
     if catalogue is not None:
         _refuse_stale(folder, manifest, catalogue, built)
+    if built.lexical:
+        _refuse_other_tokens(folder, manifest, built)
     return Index(folder, manifest, built, loader or default_loader())
 
 
@@ -104,6 +106,18 @@ def _refuse_stale(folder: Path, manifest: Mapping[str, Any], catalogue: Catalogu
             "use the template it was built with")
 
 
+def _refuse_other_tokens(folder: Path, manifest: Mapping[str, Any], built: EncoderSpec) -> None:
+    """Raise when a lexical index was tokenised by another recipe (another version of trawl,
+    bm25s or PyStemmer): its terms would not meet this version's query terms."""
+    if manifest["encoder"]["fingerprint"] != lexical_recipe(built):
+        fix = REBUILD.format(cat=manifest["catalogue"]["path"], spec=built, out=folder)
+        raise StaleIndexError(
+            f"index {folder} was tokenised by another version of trawl or of its tokeniser "
+            f"libraries (recipe "
+            f"{manifest['encoder']['fingerprint']}, now {lexical_recipe(built)}), so its "
+            f"terms may not match the queries'; rebuild it with `{fix}`")
+
+
 def check_depth(k: int, items: int, holder: str) -> None:
     """Refuse ``k`` results per query below 1 or above the ``items`` that ``holder``
     (an index, a catalogue) has, rather than cut the request without a word."""
@@ -133,7 +147,7 @@ class Index:
         if self.spec.lexical:
             from ..retrievers.lexical import LexicalIndex
 
-            self._lexical = LexicalIndex.load(folder / LEXICAL_DIR)
+            self._lexical = LexicalIndex.load(folder / LEXICAL_DIR, spec)
         else:
             self._faiss = self._load_faiss()
 

@@ -2,8 +2,9 @@
 
 Variant: bm25s' ``lucene`` scoring (Robertson & Zaragoza, 2009, with Lucene's idf
 ``log(1 + (N - df + 0.5) / (df + 0.5))`` and document-length normalisation by ``b``),
-tokens from scikit-learn's word pattern, lower-cased, English stop words removed,
-no stemming.
+tokens from scikit-learn's word pattern, lower-cased, English stop words removed; no
+stemming by default, or with ``stem=english`` the Snowball English stemmer (PyStemmer),
+as search engines' English analysers do ("profiles" and "profile" then match).
 
 A lexical retriever returns only items that share at least one term with the query
 (score > 0: every Lucene idf is positive, so any shared term scores). Filling the top k
@@ -38,9 +39,18 @@ def _bm25s() -> Any:
     return bm25s
 
 
-def tokenise(texts: list[str]) -> list[list[str]]:
+def tokenise(texts: list[str], stem: str = "none") -> list[list[str]]:
     bm25s = _bm25s()
-    return bm25s.tokenize(texts, stopwords=STOPWORDS, return_ids=False, show_progress=False)
+    return bm25s.tokenize(texts, stopwords=STOPWORDS, return_ids=False, show_progress=False,
+                          stemmer=_stemmer(stem))
+
+
+def _stemmer(stem: str) -> Any:
+    if stem == "none":
+        return None
+    import Stemmer
+
+    return Stemmer.Stemmer(stem)
 
 
 def numbered(docs: list[list[str]]) -> tuple[list[list[int]], dict[str, int]]:
@@ -54,28 +64,29 @@ def numbered(docs: list[list[str]]) -> tuple[list[list[int]], dict[str, int]]:
 class LexicalIndex:
     """bm25s term-score matrix plus its vocabulary; scores every item for a query."""
 
-    def __init__(self, model: Any) -> None:
+    def __init__(self, model: Any, stem: str) -> None:
         self._model = model
+        self._stem = stem
 
     @classmethod
     def build(cls, texts: list[str], spec: EncoderSpec) -> LexicalIndex:
         bm25s = _bm25s()
         model = bm25s.BM25(k1=spec.k1, b=spec.b, method="lucene")
-        model.index(numbered(tokenise(texts)), show_progress=False)
-        return cls(model)
+        model.index(numbered(tokenise(texts, spec.stem)), show_progress=False)
+        return cls(model, spec.stem)
 
     def save(self, folder: Path) -> None:
         self._model.save(str(folder), show_progress=False)
 
     @classmethod
-    def load(cls, folder: Path) -> LexicalIndex:
+    def load(cls, folder: Path, spec: EncoderSpec) -> LexicalIndex:
         bm25s = _bm25s()
-        return cls(bm25s.BM25.load(str(folder)))
+        return cls(bm25s.BM25.load(str(folder)), spec.stem)
 
     def scores(self, queries: list[str]) -> np.ndarray:
         """(queries x items) BM25 scores; a query with no indexed term scores 0 everywhere."""
         out = []
-        for tokens in tokenise(queries):
+        for tokens in tokenise(queries, self._stem):
             ids = self._model.get_tokens_ids(tokens)
             out.append(self._model.get_scores_from_ids(ids))
         return np.asarray(out, dtype=np.float32).reshape(len(queries), -1)

@@ -11,7 +11,8 @@ No model library is imported here, so parsing a spec is cheap. The forms:
 - ``st:DIR``        any local sentence-transformers folder; optional ``;query=PREFIX`` and
                     ``;document=PREFIX`` for models trained with prefixes
 - ``static:DIR``    a model2vec static model (e.g. from ``trawl distill``)
-- ``bm25``          lexical baseline (bm25s, English stop words); ``;k1=X;b=Y`` to tune
+- ``bm25``          lexical baseline (bm25s, English stop words); ``;k1=X;b=Y`` to tune,
+                    ``;stem=english`` to stem words as search engines' English analysers do
 
 Options follow the spec after semicolons because paths may hold colons and commas,
 and a spec has to travel as one string (``trawl eval -e A -e B``).
@@ -27,12 +28,13 @@ from ..errors import UsageError
 
 SPEC_FORMS = ("minilm", "minilm-int8", "minilm-onnx", "minilm-onnx-int8", "static:DIR",
               "st:DIR[;query=PREFIX][;document=PREFIX]",
-              "onnx:DIR[;query=PREFIX][;document=PREFIX]", "bm25[;k1=X][;b=Y]")
+              "onnx:DIR[;query=PREFIX][;document=PREFIX]", "bm25[;k1=X][;b=Y][;stem=english]")
 BUNDLED_KINDS = ("minilm", "minilm-int8", "minilm-onnx", "minilm-onnx-int8")
 QUANTISED_MODEL_KINDS = ("minilm-int8", "minilm-onnx-int8")
 FOLDER_KINDS = ("st", "static", "onnx")
 BM25_K1 = 1.5   # bm25s' defaults (its "lucene" variant), the reference configuration
 BM25_B = 0.75
+STEMMERS = ("none", "english")  # Snowball's English stemmer (PyStemmer), or none
 
 
 @dataclass(frozen=True)
@@ -45,6 +47,7 @@ class EncoderSpec:
     document_prefix: str = ""
     k1: float = BM25_K1
     b: float = BM25_B
+    stem: str = "none"
 
     @property
     def lexical(self) -> bool:
@@ -70,6 +73,8 @@ class EncoderSpec:
             opts.append(f"k1={self.k1:g}")
         if self.lexical and self.b != BM25_B:
             opts.append(f"b={self.b:g}")
+        if self.lexical and self.stem != "none":
+            opts.append(f"stem={self.stem}")
         return ";".join([out] + opts)
 
     def as_dict(self) -> dict[str, Any]:
@@ -80,6 +85,8 @@ class EncoderSpec:
             out.update(query_prefix=self.query_prefix, document_prefix=self.document_prefix)
         if self.lexical:
             out.update(k1=self.k1, b=self.b)
+            if self.stem != "none":  # absent when off, as before the option existed
+                out["stem"] = self.stem
         return out
 
 
@@ -106,7 +113,7 @@ def parse_spec(spec: str, *, check_paths: bool = True) -> EncoderSpec:
             raise _bad(spec, f"option {opt!r} is not KEY=VALUE")
         if key in options:
             raise _bad(spec, f"option {key!r} given twice")
-        options[key] = value.strip() if key in ("k1", "b") else value
+        options[key] = value.strip() if key in ("k1", "b", "stem") else value
     if kind in BUNDLED_KINDS:
         if arg:
             raise _bad(spec, f"{kind} takes no folder")
@@ -126,14 +133,17 @@ def parse_spec(spec: str, *, check_paths: bool = True) -> EncoderSpec:
     if kind == "bm25":
         if arg:
             raise _bad(spec, "bm25 takes no folder")
-        _allow(spec, options, ("k1", "b"))
+        _allow(spec, options, ("k1", "b", "stem"))
         k1 = _number(spec, options, "k1", BM25_K1)
         b = _number(spec, options, "b", BM25_B)
+        stem = options.get("stem", "none").lower()
         if k1 < 0:
             raise _bad(spec, f"k1={k1:g} must be >= 0")
         if not 0 <= b <= 1:
             raise _bad(spec, f"b={b:g} must be between 0 and 1")
-        return EncoderSpec(kind, k1=k1, b=b)
+        if stem not in STEMMERS:
+            raise _bad(spec, f"stem={stem!r} is not one of {', '.join(STEMMERS)}")
+        return EncoderSpec(kind, k1=k1, b=b, stem=stem)
     raise _bad(spec, f"unknown encoder {kind!r}")
 
 
