@@ -11,6 +11,7 @@ seed with default settings, so the worst collection and the worst seed decide.
     python bench/silver_agreement.py --collection CAT.jsonl QUERIES.tsv QRELS
     python bench/silver_agreement.py --all --no-neighbours # judgments without neighbours
     python bench/silver_agreement.py --all --samples 30    # 30 random queries each
+    python bench/silver_agreement.py --all --lexical "bm25;stem=english"  # stemmed bm25
 
 --all studies every folder under ../shared/data holding catalogue.jsonl, queries.tsv and
 qrels.txt, plus the demo gold set. Slow (minutes: every item is embedded by three
@@ -62,18 +63,19 @@ def all_collections() -> list[tuple[str, Path, Path, Path]]:
     return found + [DEMO]
 
 
-def system_scores(cat: Catalogue, queries, qrels, static_dir: Path, cache: Path
-                  ) -> dict[str, float]:
+def system_scores(cat: Catalogue, queries, qrels, static_dir: Path, cache: Path,
+                  lexical: str = "bm25") -> dict[str, float]:
     """Mean nDCG@10 of the five systems over the judged queries."""
     return {name: float(col.mean()) for name, col in
-            per_query_scores(cat, queries, qrels, static_dir, cache).items()}
+            per_query_scores(cat, queries, qrels, static_dir, cache, lexical).items()}
 
 
-def per_query_scores(cat: Catalogue, queries, qrels, static_dir: Path, cache: Path
-                     ) -> dict[str, np.ndarray]:
-    """nDCG@10 of each judged query (same order in every column), per system."""
+def per_query_scores(cat: Catalogue, queries, qrels, static_dir: Path, cache: Path,
+                     lexical: str = "bm25") -> dict[str, np.ndarray]:
+    """nDCG@10 of each judged query (same order in every column), per system; the
+    system named bm25 is searched with the ``lexical`` spec."""
     specs = {"minilm": "minilm", "minilm-int8": "minilm-int8",
-             "static": f"static:{static_dir}", "bm25": "bm25"}
+             "static": f"static:{static_dir}", "bm25": lexical}
     runs = {name: retrieve(cat, spec, queries, k=100, cache_dir=cache, quiet=True)
             for name, spec in specs.items()}
     runs["rrf(minilm+bm25)"] = reciprocal_rank_fusion([runs["minilm"], runs["bm25"]])
@@ -120,7 +122,8 @@ def one_seed(cat, human: dict[str, float], seed: int, args, static_dir: Path, ca
                              **overrides)
     silver_set = synthesise(cat, settings, quiet=True, cache_dir=cache)
     took = time.perf_counter() - start
-    silver = system_scores(cat, dict(silver_set.queries), silver_set.qrels, static_dir, cache)
+    silver = system_scores(cat, dict(silver_set.queries), silver_set.qrels, static_dir, cache,
+                           args.lexical)
     h, s = [human[x] for x in SYSTEMS], [silver[x] for x in SYSTEMS]
     n = len(silver_set.queries)
     return SeedResult(seed, n, silver_set.summary["coverage"],
@@ -131,7 +134,8 @@ def one_seed(cat, human: dict[str, float], seed: int, args, static_dir: Path, ca
 def study(name: str, cat_path: Path, q_path: Path, r_path: Path, args, static_dir: Path,
           cache: Path, overrides: dict) -> tuple[list[SeedResult], dict[str, float]]:
     cat = load_catalogue(cat_path)
-    human_q = per_query_scores(cat, read_queries(q_path), read_qrels(r_path), static_dir, cache)
+    human_q = per_query_scores(cat, read_queries(q_path), read_qrels(r_path), static_dir, cache,
+                               args.lexical)
     human = {name: float(col.mean()) for name, col in human_q.items()}
     firm = human_firmness(human_q)
     results = [one_seed(cat, human, seed, args, static_dir, cache, overrides)
@@ -218,6 +222,9 @@ def main(argv: list[str] | None = None) -> int:
                     help="Judge only sources and related items (the neighbour check).")
     ap.add_argument("--set", action="append", default=[], metavar="KEY=VALUE",
                     help="Override one synthesis setting (experiments only).")
+    ap.add_argument("--lexical", default="bm25", metavar="SPEC",
+                    help="Spec of the lexical system (and of RRF's lexical part), e.g. "
+                         "'bm25;stem=english'.")
     ap.add_argument("--samples", type=int, default=0, help="Print N random queries each.")
     ap.add_argument("--verbose", "-v", action="store_true", help="Per-system figures.")
     ap.add_argument("--json", type=Path, default=None,

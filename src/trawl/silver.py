@@ -31,6 +31,13 @@ QRELS_SUFFIX = ".qrels"
 PROVENANCE_SUFFIX = ".jsonl"
 PROVENANCE_KEYS = ("qid", "source", "style")  # every provenance record has these
 QUALITY_DOC = "docs/silver-quality.md"  # measured agreement of silver with people
+# Measured with bench/silver_agreement.py --lexical "bm25;stem=english", seeds 0-2, on the
+# four judged collections of docs/silver-quality.md (bench/results/2026-12-03-silver-stemming.md).
+STEMMING_CAUTION = (
+    "silver judgments overrate lexical systems that stem words: on four judged collections "
+    "silver put bm25;stem=english at 1.02-1.29x minilm's nDCG@10 where people put it at "
+    "0.75-0.97x, and swapped pairs of systems people settle; do not choose these on silver "
+    f"figures, judge real queries (trawl review); see {QUALITY_DOC}")
 
 
 @dataclass(frozen=True)

@@ -22,6 +22,7 @@ from ..metrics import DEFAULT_METRICS, parse_metrics
 from ..privacy import KINDS as PRIVACY_KINDS
 from ..privacy import scrub_texts
 from ..retrievers.loading import default_loader
+from ..silver import STEMMING_CAUTION
 from .assembly import (agreement_entry, evaluation_entry, scrub_note, setup_notes,
                        system_entry, versions)
 from .bundle import FORMAT, AgreementInfo, CatalogueInfo, Evaluation, Results, Setup
@@ -30,7 +31,7 @@ from .outputs import write_json, write_tables
 from .publish import clear_leftovers, publish, staged
 from .searching import Notify, Searched, merge_runs, search_set
 from .sets import JudgmentSet, LoadedSet, load_set
-from .systems import System, clean_name, plan_systems
+from .systems import System, clean_name, plan_systems, stemming
 
 DEFAULT_DEPTH = 100
 DEFAULT_RESAMPLES = 10000
@@ -260,8 +261,10 @@ def _evaluate_set(plan: _Plan, ld: LoadedSet, cat: Catalogue, indexes: Mapping[s
     write_tables(stage / js.name, scores, comparison, misses)
     entry = evaluation_entry(ld, plan.names, plan.baseline, found.latency, scores,
                              comparison, misses)
-    cut = _truncation_warnings(plan.systems, cat, ld.queries)
-    return found, (replace(entry, warnings=entry.warnings + cut) if cut else entry)
+    extra = _truncation_warnings(plan.systems, cat, ld.queries)
+    if ld.silver and (stemmed := stemming(plan.systems)):
+        extra += (f"{', '.join(stemmed)}: {STEMMING_CAUTION}",)
+    return found, (replace(entry, warnings=entry.warnings + extra) if extra else entry)
 
 
 def _truncation_warnings(systems: Sequence[System], cat: Catalogue,

@@ -61,6 +61,19 @@ def parse_system(value: str, check_paths: bool = True) -> System:
     return System(name, spec, store=store)
 
 
+def stemming(systems: Sequence[System]) -> list[str]:
+    """Names of the systems that stem words (a lexical spec with ``stem``) or fuse one
+    that does: silver judgments overrate them (``silver.STEMMING_CAUTION``)."""
+    found = {s.name for s in systems
+             if s.spec is not None and s.spec.lexical and s.spec.stem != "none"}
+    grew = True
+    while grew:  # a fusion may fuse fusions
+        more = {s.name for s in systems if found.intersection(s.parts)} - found
+        found |= more
+        grew = bool(more)
+    return [s.name for s in systems if s.name in found]
+
+
 def quantised(s: System) -> str:
     """What an encoder system runs or keeps quantised: none, model, vectors or both."""
     model = s.spec is not None and s.spec.quantised_model
