@@ -31,8 +31,8 @@ def _finish(result, as_json: bool) -> None:
 @click.option("-e", "--encoder", "encoders", multiple=True, required=True, metavar="SPEC",
               help="Encoder to evaluate; repeat for several. NAME=SPEC names it in the "
                    "report. Specs: minilm, minilm-int8, minilm-onnx, minilm-onnx-int8, "
-                   "static:DIR, st:DIR, onnx:DIR, bm25; add ;store=int8 or ;store=binary to "
-                   "keep a dense system's vectors quantised.")
+                   "static:DIR, st:DIR, onnx:DIR, bm25, bm25;stem=english; add ;store=int8 "
+                   "or ;store=binary to keep a dense system's vectors quantised.")
 @out_option(folder=True, required=True,
             help="Folder for indexes, runs, tables and report.html.")
 @click.option("--fuse", multiple=True, metavar="A+B",

@@ -5,13 +5,12 @@ from __future__ import annotations
 import click
 
 from ..report import text
+from ..retrievers.spec import SPEC_FORMS
 from . import (cache_dir_option, catalogue_option, echo_err, in_file, json_option, main,
                out_option, quiet_option, reject, show, template_option,
                threads_option)
 
-ENCODER_HELP = ("Encoder: minilm, minilm-int8, minilm-onnx, minilm-onnx-int8, static:DIR, "
-                "st:DIR[;query=PREFIX][;document=PREFIX], onnx:DIR[;query=PREFIX][;document=PREFIX] "
-                "or bm25[;k1=X][;b=Y].")
+ENCODER_HELP = f"Encoder: {', '.join(SPEC_FORMS[:-1])} or {SPEC_FORMS[-1]}."
 
 
 def engine_options(command):
