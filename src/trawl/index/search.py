@@ -109,13 +109,13 @@ def _refuse_stale(folder: Path, manifest: Mapping[str, Any], catalogue: Catalogu
 def _refuse_other_tokens(folder: Path, manifest: Mapping[str, Any], built: EncoderSpec) -> None:
     """Raise when a lexical index was tokenised by another recipe (another version of trawl,
     bm25s or PyStemmer): its terms would not meet this version's query terms."""
-    if manifest["encoder"]["fingerprint"] != lexical_recipe(built):
+    was, now = manifest["encoder"]["fingerprint"], lexical_recipe(built)
+    if was != now:
         fix = REBUILD.format(cat=manifest["catalogue"]["path"], spec=built, out=folder)
         raise StaleIndexError(
             f"index {folder} was tokenised by another version of trawl or of its tokeniser "
-            f"libraries (recipe "
-            f"{manifest['encoder']['fingerprint']}, now {lexical_recipe(built)}), so its "
-            f"terms may not match the queries'; rebuild it with `{fix}`")
+            f"libraries (recipe {was}, now {now}), so its terms may not match the queries'; "
+            f"rebuild it with `{fix}`")
 
 
 def check_depth(k: int, items: int, holder: str) -> None:
