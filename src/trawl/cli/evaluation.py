@@ -114,9 +114,10 @@ def eval_command(catalogue: str, queries: str, qrels: str, encoders: tuple[str, 
 @click.option("-e", "--encoder", "encoders", multiple=True, metavar="SPEC",
               help="Evaluate only these encoders (default: minilm, minilm-int8, minilm-onnx, "
                    "minilm-onnx-int8, 'minilm;store=int8', 'minilm;store=binary', static, "
-                   "bm25; 'static' is the model the demo distils).")
+                   "bm25, 'bm25;stem=english'; 'static' is the model the demo distils).")
 @click.option("--fuse", multiple=True, metavar="A+B",
-              help="Fused systems (default: minilm+bm25 when both are evaluated).")
+              help="Fused systems (default: minilm+bm25 and minilm+bm25;stem=english when "
+                   "their parts are evaluated).")
 @click.option("--sample", type=click.IntRange(min=1), default=None,
               help="Synthesise queries from this many items only (stratified by type).")
 @resamples
