@@ -36,10 +36,13 @@ def test_caution_beside_silver_figures_only(tmp_path, judged_by, cautioned):
                   "-e", "bm25", "-e", "stem=bm25;stem=english", "--fuse", "bm25+stem",
                   "--judgments", judged_by, "--resamples", "50", "-q", "-o", tmp_path / "out"])
     assert res.exit_code == 0, res.output
-    warnings = json.loads((tmp_path / "out" / "results.json").read_text()
-                          )["evaluations"][0]["warnings"]
-    said = [w for w in warnings if "overrate lexical systems that stem" in w]
+    bundle = json.loads((tmp_path / "out" / "results.json").read_text())
+    said = [w for w in bundle["evaluations"][0]["warnings"]
+            if "overrate lexical systems that stem" in w]
     assert len(said) == cautioned
+    # the decision rests on this set too: its notes carry the caution beside the verdict
+    noted = [n for n in bundle["decision"]["notes"] if "overrate lexical systems" in n]
+    assert len(noted) == cautioned
     if cautioned:
         assert said[0].startswith("stem, bm25+stem: silver judgments overrate")
         assert "overrate lexical systems that stem" in res.stdout
