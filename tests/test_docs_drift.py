@@ -51,3 +51,16 @@ def test_every_module_is_named_in_the_layers_section():
 
 def test_guide_stays_short():
     assert len(GUIDE.read_text(encoding="utf-8")) <= MAX_CHARS
+
+
+def test_stemming_caution_quotes_the_measured_ratios():
+    # The caution eval prints quotes a measurement; the write-up of that measurement and
+    # the page the caution points to must give the same figures.
+    from trawl.silver import QUALITY_DOC, STEMMING_CAUTION
+
+    ratios = re.findall(r"\d\.\d\d-\d\.\d\dx", STEMMING_CAUTION)
+    assert len(ratios) == 2, STEMMING_CAUTION
+    for page in (ROOT / QUALITY_DOC, ROOT / "bench/results/2026-12-03-silver-stemming.md"):
+        text = " ".join(page.read_text(encoding="utf-8").split())
+        for r in ratios:
+            assert r in text, (page, r)
