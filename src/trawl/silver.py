@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import json
 from collections import Counter
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -38,6 +38,12 @@ STEMMING_CAUTION = (
     "silver put bm25;stem=english at 1.02-1.29x minilm's nDCG@10 where people put it at "
     "0.75-0.97x, and swapped pairs of systems people settle; do not choose these on silver "
     f"figures, judge real queries (trawl review); see {QUALITY_DOC}")
+
+
+def stemming_caution(systems: Sequence[str]) -> str | None:
+    """The caution beside silver figures of these systems (``pipeline.systems.stemming``
+    names them); None when there are none."""
+    return f"{', '.join(systems)}: {STEMMING_CAUTION}" if systems else None
 
 
 @dataclass(frozen=True)

@@ -11,7 +11,7 @@ from typing import Any
 from ..decision import Decision, Limits, SystemFigures, decide
 from ..metrics import parse_metrics
 from ..scores import score_runs
-from ..silver import STEMMING_CAUTION
+from ..silver import stemming_caution
 from .searching import Searched
 from .sets import LoadedSet
 from .systems import System, stemming
@@ -59,8 +59,8 @@ def evaluation_decision(systems: Sequence[System], loaded: Sequence[LoadedSet],
     runs = [found.runs[s.name] for s in systems]
     report = score_runs(ld.qrels, runs, [limits.headline])
     notes = [UNKNOWN_ORIGIN] if ld.origin == "unknown" else []
-    if ld.silver and (stemmed := stemming(systems)):
-        notes.append(f"{', '.join(stemmed)}: {STEMMING_CAUTION}")
+    if ld.silver and (caution := stemming_caution(stemming(systems))):
+        notes.append(caution)
     figures = [system_figures(s, indexes, found.latency) for s in systems]
     if any(f.build_seconds is None for f in figures):
         # build times compare only when every index paid for its own embeddings

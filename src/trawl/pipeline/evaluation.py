@@ -22,7 +22,7 @@ from ..metrics import DEFAULT_METRICS, parse_metrics
 from ..privacy import KINDS as PRIVACY_KINDS
 from ..privacy import scrub_texts
 from ..retrievers.loading import default_loader
-from ..silver import STEMMING_CAUTION
+from ..silver import stemming_caution
 from .assembly import (agreement_entry, evaluation_entry, scrub_note, setup_notes,
                        system_entry, versions)
 from .bundle import FORMAT, AgreementInfo, CatalogueInfo, Evaluation, Results, Setup
@@ -262,8 +262,8 @@ def _evaluate_set(plan: _Plan, ld: LoadedSet, cat: Catalogue, indexes: Mapping[s
     entry = evaluation_entry(ld, plan.names, plan.baseline, found.latency, scores,
                              comparison, misses)
     extra = _truncation_warnings(plan.systems, cat, ld.queries)
-    if ld.silver and (stemmed := stemming(plan.systems)):
-        extra += (f"{', '.join(stemmed)}: {STEMMING_CAUTION}",)
+    if ld.silver and (caution := stemming_caution(stemming(plan.systems))):
+        extra += (caution,)
     return found, (replace(entry, warnings=entry.warnings + extra) if extra else entry)
 
 
