@@ -9,7 +9,7 @@ import json
 
 import pytest
 
-from trawl.pipeline.systems import System, parse_system, stemming
+from trawl.pipeline.systems import plan_systems, stemming
 
 from .conftest import invoke
 
@@ -18,13 +18,11 @@ ROWS = [{"id": f"it{i}", "type": "faq" if i % 2 else "form", "title": f"Fare rul
 
 
 def test_stemming_names_stemmed_lexical_systems_and_the_fusions_holding_them():
-    systems = [parse_system("bm25"), parse_system("stem=bm25;stem=english"),
-               parse_system("minilm"),
-               System("minilm+stem", None, ("minilm", "stem")),
-               System("bm25+minilm", None, ("bm25", "minilm")),
-               System("minilm+stem+bm25+minilm", None, ("minilm+stem", "bm25+minilm"))]
-    assert stemming(systems) == ["stem", "minilm+stem", "minilm+stem+bm25+minilm"]
-    assert stemming(systems[:1] + systems[2:3]) == []
+    systems = plan_systems(["bm25", "stem=bm25;stem=english", "minilm"],
+                           ["minilm+stem", "bm25+minilm", "bm25+minilm+bm25;stem=english"],
+                           check_paths=False)
+    assert stemming(systems) == ["stem", "minilm+stem", "bm25+minilm+stem"]
+    assert stemming(plan_systems(["bm25", "minilm"], ["bm25+minilm"], check_paths=False)) == []
 
 
 @pytest.mark.parametrize("judged_by, cautioned", [("silver", True), ("human", False)])

@@ -64,14 +64,10 @@ def parse_system(value: str, check_paths: bool = True) -> System:
 def stemming(systems: Sequence[System]) -> list[str]:
     """Names of the systems that stem words (a lexical spec with ``stem``) or fuse one
     that does: silver judgments overrate them (``silver.STEMMING_CAUTION``)."""
-    found = {s.name for s in systems
+    stems = {s.name for s in systems
              if s.spec is not None and s.spec.lexical and s.spec.stem != "none"}
-    grew = True
-    while grew:  # a fusion may fuse fusions
-        more = {s.name for s in systems if found.intersection(s.parts)} - found
-        found |= more
-        grew = bool(more)
-    return [s.name for s in systems if s.name in found]
+    # a fusion's parts are encoder systems (plan_systems), never other fusions
+    return [s.name for s in systems if s.name in stems or stems.intersection(s.parts)]
 
 
 def quantised(s: System) -> str:
